@@ -1,0 +1,234 @@
+"""The ``labelcalc`` command: a thin layer over the Python API.
+
+Every command reports bad input as one clear message (file, line or field,
+what to fix) on standard error and exits with code 2; it never prints a
+traceback for bad input.
+"""
+
+from __future__ import annotations
+
+import functools
+import json
+import sys
+from pathlib import Path
+from typing import Optional
+
+import typer
+
+from . import __version__
+from .api import find_library
+from .composition import compose
+from .declare import declaration_dict, declare
+from .energy import energy_by_line, energy_of, load_factor_set, rules_dir
+from .errors import LabelError
+from .formula import load_formula
+from .library import load_library
+from .rulepack import get_packs, load_pack_file, load_packs
+from .textreport import compose_text, declare_text
+
+app = typer.Typer(
+    add_completion=False,
+    no_args_is_help=True,
+    help="From a food product formula to finished-product composition, energy and label drafts for several markets. "
+    "Every output is a draft: verify it against current local regulation with a qualified regulatory professional.",
+)
+rules_app = typer.Typer(no_args_is_help=True, help="List, show and check the market rule packs.")
+app.add_typer(rules_app, name="rules")
+
+LibraryOpt = typer.Option(None, "--library", "-l", help="Ingredient library (folder or file). Default: the nearest 'ingredients/' folder beside the formula.")
+JsonOpt = typer.Option(False, "--json", help="Write a JSON document instead of the table.")
+RulesOpt = typer.Option(None, "--rules", help="Folder of market rule packs to use instead of the built-in rules/markets.")
+MarketOpt = typer.Option("us,eu", "--market", "-m", help="Comma-separated market codes: us, eu, uk, ca, anz, codex.")
+
+
+def friendly(fn):
+    """Turn LabelError into one message and exit code 2."""
+
+    @functools.wraps(fn)
+    def wrapper(*args, **kwargs):
+        try:
+            return fn(*args, **kwargs)
+        except LabelError as exc:
+            typer.echo(f"error: {exc}", err=True)
+            raise typer.Exit(2) from None
+        except (BrokenPipeError, KeyboardInterrupt):  # pragma: no cover
+            raise typer.Exit(1) from None
+
+    return wrapper
+
+
+def _library(formula: Path, library: Optional[Path]):
+    return load_library(library or find_library(formula))
+
+
+def _energy_sets() -> list[str]:
+    ids = sorted(p.stem for p in (rules_dir() / "energy").glob("*.yaml"))
+    return ["available"] + [i for i in ids if i != "available"]
+
+
+def compose_document(formula, comps) -> dict:
+    """The documented JSON form of ``labelcalc compose`` (see README)."""
+    from . import components as C
+
+    sets = [load_factor_set(i) for i in _energy_sets()]
+    serving = formula.serving_grams()
+    out = []
+    for c in comps:
+        energies = {}
+        for fs in sets:
+            e = energy_of(c, fs)
+            energies[fs.id] = {
+                "kind": "available" if fs.id == "available" else "declared basis",
+                "kj_per_100g": e.kj, "kcal_per_100g": e.kcal,
+                "kj_per_serving": e.per_serving(serving)[0], "kcal_per_serving": e.per_serving(serving)[1],
+                "by_component_kcal_per_100g": e.by_component_kcal,
+                "by_line_kcal_per_100g": {lab: kc for lab, _, kc in energy_by_line(c, fs)},
+                "unknown_because": e.unknown_because, "reviews": [r.strip() for r in e.reviews],
+                "source": f"{fs.factor_set.instrument}, {fs.factor_set.section}",
+            }
+        labels, rows = c.contributions
+        out.append({
+            "scenario": c.scenario,
+            "batch_g": c.batch_grams,
+            "finished_g": c.finished_grams,
+            "steps": [{"name": s.name, "water_lost_g": s.water_lost_g, "oil_taken_up_g": s.oil_taken_up_g,
+                       "oil": s.oil_ref, "mass_after_g": s.mass_after_g} for s in c.steps],
+            "per_100g": {k: c.value(k) for k in C.KEYS},
+            "per_serving": {k: c.per_serving(k) for k in C.KEYS} if serving else None,
+            "units": {k: C.BY_KEY[k].unit for k in C.KEYS},
+            "unknown": {k: c.unknown_inputs(k) for k in c.unknown_components},
+            "contributions_per_100g": {lab: {k: (None if row[i] != row[i] else float(row[i]))
+                                             for i, k in enumerate(C.KEYS)} for lab, row in zip(labels, rows)},
+            "energy": energies,
+        })
+    return {
+        "product": {"id": formula.id, "name": formula.header.name, "version": formula.header.version,
+                    "file": formula.file, "content_hash": formula.content_hash,
+                    "serving_g": serving, "fried": formula.is_fried, "has_range": formula.has_range},
+        "scenarios": out,
+        "notes": (["Fried product: oil uptake and moisture loss are estimates; laboratory analysis of fat and moisture is "
+                   "the usual confirmation."] if formula.is_fried else []),
+        "draft_notice": "DRAFT — verify against current local regulation and a qualified regulatory professional.",
+    }
+
+
+@app.command("compose")
+@friendly
+def compose_cmd(
+    formula: Path = typer.Argument(..., help="Formula file (YAML)."),
+    library: Optional[Path] = LibraryOpt,
+    as_json: bool = JsonOpt,
+):
+    """Finished-product composition per 100 g and per serving, with available and declared-basis energy."""
+    lib = _library(formula, library)
+    f = load_formula(formula, lib)
+    comps = compose(f, lib)
+    if as_json:
+        typer.echo(json.dumps(compose_document(f, comps), indent=2, ensure_ascii=False))
+        return
+    sets = [load_factor_set(i) for i in _energy_sets()]
+    energies = {f.id: [[energy_of(c, fs) for fs in sets] for c in comps]}
+    typer.echo(compose_text(comps, energies))
+
+
+@app.command("declare")
+@friendly
+def declare_cmd(
+    formula: Path = typer.Argument(..., help="Formula file (YAML)."),
+    market: str = MarketOpt,
+    library: Optional[Path] = LibraryOpt,
+    rules: Optional[Path] = RulesOpt,
+    as_json: bool = JsonOpt,
+):
+    """Each market's declared values: rows, rounding, reference values, columns."""
+    lib = _library(formula, library)
+    f = load_formula(formula, lib)
+    packs = get_packs(market.split(","), rules)
+    comps = compose(f, lib)
+    decls = [declare(c, p) for p in packs for c in comps]  # all computed before anything is printed
+    if as_json:
+        doc = {"product": {"id": f.id, "name": f.header.name, "version": f.header.version, "content_hash": f.content_hash},
+               "declarations": [declaration_dict(d) for d in decls]}
+        typer.echo(json.dumps(doc, indent=2, ensure_ascii=False, default=str))
+    else:
+        typer.echo(declare_text(decls))
+
+
+@rules_app.command("list")
+@friendly
+def rules_list(rules: Optional[Path] = RulesOpt):
+    """The markets with a rule pack."""
+    for code, p in sorted(load_packs(rules).items()):
+        typer.echo(f"{code:6} {p.pack.name} — pack {p.pack.version}, reviewed {p.pack.reviewed}")
+
+
+@rules_app.command("show")
+@friendly
+def rules_show(market: str = typer.Argument(..., help="Market code."), rules: Optional[Path] = RulesOpt):
+    """A pack's rows, rounding rules and reference values with their citations."""
+    (p,) = get_packs([market], rules)
+    typer.echo(f"{p.pack.name} ({p.market}) — pack {p.pack.version}, reviewed {p.pack.reviewed}")
+    for ins in p.pack.instruments:
+        typer.echo(f"  instrument: {ins.title} ({ins.date})")
+    typer.echo(f"Panel: {p.panel.title}; columns {', '.join(p.panel.bases)}; energy factors {p.panel.energy_factor_set}")
+    typer.echo("Rows:")
+    for r in p.rows:
+        typer.echo(f"  {'  ' * r.indent}{r.label} [{r.nutrient}, {r.requirement}, rounding {r.rounding}"
+                   + (f", % of {r.percent}" if r.percent else "") + f"] — {r.citation} ({r.confidence})")
+    typer.echo("Reference values:")
+    for k, v in p.reference_values.items():
+        typer.echo(f"  {k}: {v.amount:g} {v.unit} — {v.citation} ({v.confidence})")
+    typer.echo("Rounding rules:")
+    for k, rr in p.rounding.items():
+        typer.echo(f"  {k}: {rr.citation} ({rr.confidence})")
+
+
+@rules_app.command("check")
+@friendly
+def rules_check(file: Path = typer.Argument(..., help="A rule pack file or a folder of packs.")):
+    """Validate a rule pack (or a folder of them); problems name the file, line and key."""
+    if file.is_dir():
+        packs = load_packs(file)
+        typer.echo(f"ok: {len(packs)} pack(s): {', '.join(sorted(packs))}")
+    else:
+        p = load_pack_file(file)
+        typer.echo(f"ok: {p.pack.name} ({p.market}), {len(p.rows)} rows")
+
+
+@app.command("schema")
+@friendly
+def schema_cmd(out: Path = typer.Option(Path("schemas"), "--out", "-o", help="Folder to write the JSON Schema files into.")):
+    """Write JSON Schema files for formula, ingredient library and rule pack files, for editors to validate with."""
+    from .formula import FormulaFile
+    from .library import Ingredient
+    from .rulepack import RulePack
+
+    out.mkdir(parents=True, exist_ok=True)
+    lib_schema = {
+        "$schema": "https://json-schema.org/draft/2020-12/schema",
+        "title": "labelcalc ingredient library",
+        "type": "object",
+        "properties": {"library": {"type": "object"},
+                       "ingredients": {"type": "object", "additionalProperties": Ingredient.model_json_schema()}},
+        "required": ["ingredients"],
+    }
+    files = {"formula.schema.json": FormulaFile.model_json_schema(), "library.schema.json": lib_schema,
+             "rulepack.schema.json": RulePack.model_json_schema()}
+    for name, schema in files.items():
+        (out / name).write_text(json.dumps(schema, indent=2) + "\n", encoding="utf-8")
+        typer.echo(f"wrote {out / name}")
+
+
+@app.callback(invoke_without_command=True)
+def _root(version: bool = typer.Option(False, "--version", help="Print the version and exit.")):
+    if version:
+        typer.echo(f"labelcalc {__version__}")
+        raise typer.Exit(0)
+
+
+def main() -> None:  # console entry point
+    app()
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

@@ -1,0 +1,248 @@
+"""Market rule packs: the data that turns one composition into a market's panel.
+
+A pack is one YAML file in ``rules/markets/`` (see DEVELOPERS.md, "Adding a
+market").  The engine (``declare.py``) knows no market by name: everything a
+market does differently is in its pack, each value with its citation and a
+confidence mark.
+"""
+
+from __future__ import annotations
+
+import difflib
+from functools import lru_cache
+from pathlib import Path
+from typing import Literal
+
+from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
+
+from . import components as C
+from .energy import Confidence, load_factor_set, rules_dir
+from .errors import Problem, ProblemList, RuleError, UnknownNameError
+from .rounding import RoundingRule
+from .yamlsafe import load_yaml, pydantic_problems
+
+Basis = Literal["per_100g", "per_serving", "per_container"]
+
+
+class Strict(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+
+class Instrument(Strict):
+    id: str
+    title: str
+    date: str = Field(description="date of the version read (YYYY-MM-DD or YYYY)")
+    url: str | None = None
+
+
+class PackHeader(Strict):
+    market: str = Field(pattern=r"^[a-z][a-z0-9_]*$")
+    name: str
+    version: str
+    language: str = "en"
+    reviewed: str = Field(description="date the pack was last checked against the instruments")
+    instruments: list[Instrument] = Field(min_length=1)
+    draft_notice: str = "DRAFT — verify against current local regulation before use"
+    notes: str | None = None
+
+
+class Cited(Strict):
+    citation: str = Field(min_length=3)
+    confidence: Confidence
+
+
+class ReferenceAmount(Cited):
+    amount_g: float = Field(gt=0, description="[g] reference amount customarily consumed")
+    label: str | None = None
+    small: bool | None = Field(None, description="true when the market treats it as a small reference amount")
+
+
+class DualColumn(Cited):
+    from_percent: float = Field(gt=0, description="container at or above this % of the reference amount ...")
+    to_percent: float = Field(gt=0, description="... and at or below this % gets a second, per-container column")
+
+
+class Servings(Strict):
+    required: bool = Field(description="the market's panel needs a serving size")
+    reference_amounts: dict[str, ReferenceAmount] = Field(default_factory=dict)
+    reference_amount_required: bool = False
+    single_serving_below_percent: float | None = Field(None, description="container below this % of the reference amount is one serving")
+    single_serving: Cited | None = None
+    dual_column: DualColumn | None = None
+    servings_rounding: str | None = Field(None, description="rounding rule key for servings per container")
+    about_prefix: str | None = Field(None, description="word printed before a rounded number of servings, e.g. 'about'")
+
+
+class NutrientDef(Cited):
+    """How a declared nutrient is built from labelcalc components."""
+
+    unit: Literal["g", "mg", "ug", "kJ", "kcal"]
+    sum: dict[str, float] | None = Field(None, description="component (or derived total) -> factor into this unit")
+    energy: Literal["kJ", "kcal"] | None = Field(None, description="this row is the declared energy in that unit")
+
+    @model_validator(mode="after")
+    def _what(self):
+        if (self.sum is None) == (self.energy is None):
+            raise ValueError("a nutrient is built from 'sum' (components) or is 'energy'")
+        if self.sum:
+            for k in self.sum:
+                if k not in C.BY_KEY and k not in C.DERIVED:
+                    near = difflib.get_close_matches(k, list(C.BY_KEY) + list(C.DERIVED), n=2)
+                    raise ValueError(f"unknown component '{k}'" + (f" (did you mean {', '.join(near)}?)" if near else ""))
+        return self
+
+
+class ReferenceValue(Cited):
+    amount: float = Field(gt=0)
+    unit: Literal["g", "mg", "ug", "kJ", "kcal"]
+
+
+class Trigger(Strict):
+    """When a conditional row must be shown."""
+
+    claim: str | None = Field(None, description="shown when the formula lists a claim whose name starts with this")
+    present: bool | None = Field(None, description="shown when the declared value is not zero")
+    added: str | None = Field(None, description="shown when an ingredient of this kind is added (e.g. 'polyol', 'fortificant')")
+    at_least_percent_reference: float | None = Field(None, description="shown when per 100 g it reaches this % of its reference value")
+    at_least_per_100g: float | None = Field(None, description="shown when per 100 g it reaches this amount")
+
+
+class Row(Strict):
+    nutrient: str
+    label: str
+    requirement: Literal["mandatory", "voluntary", "conditional"]
+    when: list[Trigger] = Field(default_factory=list, description="conditional rows: any trigger shows the row")
+    show: Literal["always", "when_present", "never"] = Field("when_present", description="voluntary rows: default display")
+    rounding: str
+    percent: str | None = Field(None, description="reference value key for the percentage column")
+    percent_rounding: str | None = None
+    percent_from: Literal["declared", "unrounded"] | None = None
+    indent: int = Field(0, ge=0, le=3)
+    bold: bool = False
+    show_unit: bool = True
+    citation: str = Field(min_length=3)
+    confidence: Confidence
+
+
+class Footnote(Cited):
+    text: str
+    when: Literal["always", "percent_shown"] = "always"
+
+
+class Panel(Strict):
+    title: str
+    energy_factor_set: str
+    bases: list[Basis] = Field(min_length=1, description="columns the market prints, in order")
+    rounding_basis: Literal["per_100g", "per_serving", "each"] = Field("each", description="which column's value is rounded (each = every column on its own)")
+    percent_label: str | None = None
+    percent_basis: Basis | None = None
+    percent_from: Literal["declared", "unrounded"] = "declared"
+    percent_from_citation: str | None = None
+    column_labels: dict[str, str] = Field(default_factory=dict)
+    footnotes: list[Footnote] = Field(default_factory=list)
+    liquid_unit_basis: str = "per 100 ml"
+    citation: str = Field(min_length=3)
+    confidence: Confidence
+
+
+class RulePack(Strict):
+    pack: PackHeader
+    panel: Panel
+    servings: Servings
+    nutrients: dict[str, NutrientDef]
+    reference_values: dict[str, ReferenceValue] = Field(default_factory=dict)
+    rounding: dict[str, RoundingRule]
+    rows: list[Row] = Field(min_length=1)
+
+    @model_validator(mode="after")
+    def _refs(self):
+        errs = []
+        for i, r in enumerate(self.rows):
+            if r.nutrient not in self.nutrients:
+                errs.append(f"rows[{i}] nutrient '{r.nutrient}' is not defined under 'nutrients'")
+            if r.rounding not in self.rounding:
+                errs.append(f"rows[{i}] rounding '{r.rounding}' is not defined under 'rounding'")
+            if r.percent and r.percent not in self.reference_values:
+                errs.append(f"rows[{i}] percent '{r.percent}' is not defined under 'reference_values'")
+            if r.percent and not (r.percent_rounding or "percent" in self.rounding):
+                errs.append(f"rows[{i}] has a percentage but no percent_rounding")
+            if r.percent_rounding and r.percent_rounding not in self.rounding:
+                errs.append(f"rows[{i}] percent_rounding '{r.percent_rounding}' is not defined under 'rounding'")
+            if r.requirement == "conditional" and not r.when:
+                errs.append(f"rows[{i}] is conditional but has no 'when' triggers")
+        s = self.servings
+        if s.servings_rounding and s.servings_rounding not in self.rounding:
+            errs.append(f"servings.servings_rounding '{s.servings_rounding}' is not defined under 'rounding'")
+        if "per_serving" in self.panel.bases and not s.required and False:
+            pass
+        if errs:
+            raise ValueError("; ".join(errs))
+        return self
+
+    @property
+    def market(self) -> str:
+        return self.pack.market
+
+
+def packs_dir(folder: str | Path | None = None) -> Path:
+    return Path(folder) if folder else rules_dir() / "markets"
+
+
+def load_pack_file(path: str | Path, rules_root: str | Path | None = None) -> RulePack:
+    """Load and validate one pack file; problems name the file, line and key."""
+    loaded = load_yaml(path)
+    if not isinstance(loaded.data, dict):
+        raise RuleError(Problem("not a rule pack: expected a mapping with pack, panel, servings, nutrients, rounding, rows",
+                                file=loaded.file, line=1))
+    try:
+        pack = RulePack.model_validate(loaded.data)
+    except ValidationError as exc:
+        raise RuleError(pydantic_problems(exc, loaded)) from None
+    root = Path(rules_root) if rules_root else Path(path).resolve().parent.parent
+    try:
+        load_factor_set(pack.panel.energy_factor_set, str(root) if (root / "energy").is_dir() else None)
+    except (RuleError, UnknownNameError) as exc:
+        raise RuleError(Problem(f"energy_factor_set: {exc}", file=loaded.file,
+                                line=loaded.line_of(("panel", "energy_factor_set")), field="panel.energy_factor_set")) from None
+    return pack
+
+
+@lru_cache(maxsize=16)
+def _load_all(folder: str) -> dict[str, RulePack]:
+    base = Path(folder)
+    if not base.is_dir():
+        raise RuleError(Problem("rule pack folder not found", file=str(base), fix="check --rules"))
+    problems = ProblemList()
+    packs: dict[str, RulePack] = {}
+    files = sorted(base.glob("*.yaml"))
+    root = base.parent if (base.parent / "energy").is_dir() else None
+    for f in files:
+        try:
+            p = load_pack_file(f, root)
+        except RuleError as exc:
+            problems.problems += exc.problems
+            continue
+        if p.market in packs:
+            problems.add(f"market '{p.market}' is defined twice", file=str(f))
+        packs[p.market] = p
+    problems.raise_if_any(RuleError)
+    return packs
+
+
+def load_packs(folder: str | Path | None = None) -> dict[str, RulePack]:
+    """All packs in a folder, keyed by market code."""
+    return _load_all(str(packs_dir(folder).resolve()))
+
+
+def get_packs(codes: list[str], folder: str | Path | None = None) -> list[RulePack]:
+    """Packs for market codes such as ['us', 'eu']; an unknown code is a clear error."""
+    packs = load_packs(folder)
+    out = []
+    for code in codes:
+        code = code.strip().lower()
+        if code not in packs:
+            near = difflib.get_close_matches(code, list(packs), n=2)
+            raise UnknownNameError(Problem(f"unknown market '{code}'",
+                                           fix=(f"did you mean {', '.join(near)}? " if near else "") + f"known markets: {', '.join(sorted(packs))}"))
+        out.append(packs[code])
+    return out
