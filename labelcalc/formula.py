@@ -11,6 +11,7 @@ from __future__ import annotations
 import difflib
 import hashlib
 import json
+import re
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Literal, Union
@@ -76,6 +77,12 @@ class BatchLine(Strict):
     subformula: str | None = Field(None, description="id of a sub-formula")
     amount: str = Field(description="'400 g', '0.4 kg' or '12 %' (of the whole batch)")
     label_name: str | None = Field(None, description="overrides the ingredient's label name")
+
+    @field_validator("amount", mode="before")
+    @classmethod
+    def _amount(cls, v):
+        parse_quantity(v)  # raises a message that says what to write
+        return str(v)
 
     @model_validator(mode="after")
     def _one_ref(self):
@@ -300,6 +307,9 @@ class FormulaIndex:
                     self.kinds[ident[1]] = ident[0]
 
 
+_INLINE_HEADER = re.compile(r"^(product|subformula):\s*\{.*?\bid:\s*([^,}\s]+)")
+
+
 def _peek_id(path: Path) -> tuple[str, str] | None:
     """Cheap look at a file's header id without full validation."""
     try:
@@ -310,6 +320,9 @@ def _peek_id(path: Path) -> tuple[str, str] | None:
     kind = None
     for raw in head.splitlines():
         s = raw.split(" #")[0].rstrip()
+        m = _INLINE_HEADER.match(s)
+        if m:
+            return m.group(1), m.group(2).strip("'\"")
         if s in ("product:", "subformula:"):
             kind = s[:-1]
         elif kind and s.startswith((" ", "\t")) and s.strip().startswith("id:"):
