@@ -127,6 +127,11 @@ class Composition:
         keys = C.DERIVED.get(key, (key,))
         return [ing.id for ing in self.formula.ingredients_used() if any(k not in ing.values for k in keys)]
 
+    def leaf_amounts(self) -> dict[str, float]:
+        """Grams of each library ingredient used per 100 g of finished product
+        (as used, before processing), through sub-formulas and frying oils."""
+        return _leaf_amounts(self.formula, self.scenario, self._table, self.finished_grams)
+
     @cached_property
     def contributions(self) -> tuple[list[str], np.ndarray]:
         """Per-line contributions per 100 g of finished product.
@@ -165,6 +170,10 @@ class CompositionTable:
         self._cache: dict[str, np.ndarray] = {}
         self.columns: dict[str, int] = {k: i for i, k in enumerate(library.ids)}
         self.n = len(library.ids)
+        #: finished mass [g] of each composed sub-formula and product, per scenario
+        self.finished: dict[str, dict[str, float]] = {}
+        #: oil taken up [g] in each processing step of each formula, per scenario
+        self.oil_taken: dict[str, dict[str, list[float]]] = {}
 
     def add(self, key: str, lo: np.ndarray, hi: np.ndarray) -> None:
         self._rows["low"].append(lo)
@@ -184,6 +193,39 @@ class CompositionTable:
 
     def oil_column(self, st: ProcessStep) -> int:
         return self.columns[st.oil_ingredient.id] if st.oil_ingredient is not None else self.columns[_fkey(st.oil_formula)]
+
+
+def _leaf_amounts(f: Formula, scenario: str, table: "CompositionTable", finished: float) -> dict[str, float]:
+    s = "low" if scenario == "nominal" else scenario
+    out: dict[str, float] = {}
+
+    def add(key: str, g: float) -> None:
+        out[key] = out.get(key, 0.0) + g
+
+    def sub_amounts(sub: Formula) -> dict[str, float]:
+        return _leaf_amounts(sub, scenario, table, table.finished[_fkey(sub)][s])
+
+    scale = 100.0 / finished
+    for ln in f.lines:
+        if ln.ingredient is not None:
+            add(ln.ingredient.id, ln.grams * scale)
+        else:
+            for k, g in sub_amounts(ln.formula).items():
+                add(k, ln.grams * scale * g / 100.0)
+    steps = iter(_steps_of(f, scenario, table))
+    for st in f.steps:
+        taken = next(steps, 0.0)
+        if st.oil_ingredient is not None:
+            add(st.oil_ingredient.id, taken * scale)
+        elif st.oil_formula is not None:
+            for k, g in sub_amounts(st.oil_formula).items():
+                add(k, taken * scale * g / 100.0)
+    return out
+
+
+def _steps_of(f: Formula, scenario: str, table: "CompositionTable") -> list[float]:
+    s = "low" if scenario == "nominal" else scenario
+    return table.oil_taken.get(_fkey(f), {}).get(s, [0.0] * len(f.steps))
 
 
 def _fkey(f: Formula) -> str:
@@ -242,11 +284,13 @@ def compose_many(formulas: list[Formula], library: Library, table: CompositionTa
                 failed[_fkey(f)] = res
                 continue
             done[_fkey(f)] = res
+            table.oil_taken[_fkey(f)] = {sc: [st.oil_taken_up_g for st in res[2][i][3]] for i, sc in enumerate(SCENARIOS)}
         for f in ok:
             k = _fkey(f)
             if k in done and k not in table.columns:
-                lo, hi, _ = done[k]
+                lo, hi, extra = done[k]
                 table.add(k, lo[0], hi[0])
+                table.finished[k] = {"low": extra[0][2], "high": extra[1][2]}
     for f in formulas:
         k = _fkey(f)
         if k in failed:

@@ -19,6 +19,11 @@ from .errors import InputError, Problem, RuleError
 from .rounding import Rounded, apply_rounding, format_number, to_decimal
 from .rulepack import RulePack, Row
 
+def display_unit(unit: str) -> str:
+    """Unit as printed on a label ("ug" is stored, "µg" is printed)."""
+    return "µg" if unit == "ug" else unit
+
+
 BASIS_LABEL = {"per_100g": "per 100 g", "per_serving": "per serving", "per_container": "per container"}
 
 
@@ -45,7 +50,7 @@ class DeclaredRow:
         r = self.declared.get(basis)
         if r is None:
             return "unknown"
-        return f"{r.text} {self.unit}" if self.show_unit else r.text
+        return f"{r.text} {display_unit(self.unit)}" if self.show_unit else r.text
 
 
 @dataclass
@@ -225,8 +230,9 @@ def _percents(row: Row, pack: RulePack, columns, col_vals, declared):
 
 
 def _shown(row: Row, pack: RulePack, declared, values, claims, kinds) -> tuple[bool, str]:
-    def present() -> bool:
-        return any(d is not None and (d.number is None or d.number != 0) for d in declared.values())
+    def present() -> bool:  # unrounded amount above zero (a "<0.5 g" of nothing is not present)
+        v = values[row.nutrient][0]
+        return v is not None and v > 0 and any(d is not None and (d.number is None or d.number != 0) for d in declared.values())
 
     if row.requirement == "mandatory":
         return True, "mandatory"

@@ -19,6 +19,7 @@ from . import components as C
 from .energy import Confidence, load_factor_set, rules_dir
 from .errors import Problem, ProblemList, RuleError, UnknownNameError
 from .rounding import RoundingRule
+from .rulepack_assess import Allergens, Claim, FrontOfPack, IngredientListRule, Statement
 from .yamlsafe import load_yaml, pydantic_problems
 
 Basis = Literal["per_100g", "per_serving", "per_container"]
@@ -153,6 +154,11 @@ class RulePack(Strict):
     reference_values: dict[str, ReferenceValue] = Field(default_factory=dict)
     rounding: dict[str, RoundingRule]
     rows: list[Row] = Field(min_length=1)
+    claims: list[Claim] = Field(default_factory=list)
+    statements: list[Statement] = Field(default_factory=list)
+    allergens: Allergens | None = None
+    ingredient_list: IngredientListRule | None = None
+    front_of_pack: list[FrontOfPack] = Field(default_factory=list)
 
     @model_validator(mode="after")
     def _refs(self):
@@ -170,6 +176,25 @@ class RulePack(Strict):
                 errs.append(f"rows[{i}] percent_rounding '{r.percent_rounding}' is not defined under 'rounding'")
             if r.requirement == "conditional" and not r.when:
                 errs.append(f"rows[{i}] is conditional but has no 'when' triggers")
+        for i, cl in enumerate(self.claims):
+            for cond in cl.conditions + [c for g in cl.alternatives for c in g]:
+                if cond.quantity not in self.nutrients:
+                    errs.append(f"claims[{i}] ({cl.id}) uses '{cond.quantity}', which is not defined under 'nutrients'")
+        ids = [c.id for c in self.claims]
+        if len(ids) != len(set(ids)):
+            errs.append("claim ids must be unique")
+        for i, st in enumerate(self.statements):
+            for t in st.triggers:
+                for cond in t.conditions:
+                    if cond.quantity not in self.nutrients:
+                        errs.append(f"statements[{i}] ({st.id}) uses '{cond.quantity}', which is not defined under 'nutrients'")
+        for fop in self.front_of_pack:
+            for k in list((fop.nutrients or {})) + list((fop.high_in or {})):
+                if k not in self.nutrients:
+                    errs.append(f"front_of_pack {fop.id} uses '{k}', which is not defined under 'nutrients'")
+            for k in (fop.high_in or {}).values():
+                if k not in self.reference_values:
+                    errs.append(f"front_of_pack {fop.id} uses reference value '{k}', which is not defined")
         s = self.servings
         if s.servings_rounding and s.servings_rounding not in self.rounding:
             errs.append(f"servings.servings_rounding '{s.servings_rounding}' is not defined under 'rounding'")
