@@ -46,11 +46,25 @@ class DeclaredRow:
     unknown_inputs: list[str] = field(default_factory=list)
     value_per_100g: float | None = None
 
+    unit_label: str | None = None
+
     def text(self, basis: str) -> str:
+        """The figure as printed, with its unit."""
         r = self.declared.get(basis)
         if r is None:
             return "unknown"
-        return f"{r.text} {display_unit(self.unit)}" if self.show_unit else r.text
+        unit = self.unit_label or display_unit(self.unit)
+        return f"{r.text} {unit}" if self.show_unit else r.text
+
+    @property
+    def amount_in_label(self) -> bool:
+        """The label carries the amount itself, e.g. 'Includes {amount} Added Sugars'."""
+        return "{amount}" in self.label
+
+    def label_for(self, basis: str) -> str:
+        if not self.amount_in_label:
+            return self.label
+        return self.label.replace("{amount}", self.text(basis).replace(" ", ""))
 
 
 @dataclass
@@ -124,10 +138,23 @@ def _reference_amount(comp: Composition, pack: RulePack):
     return cat, ra.amount_g, ra.citation
 
 
+def energy_method(f, pack: RulePack) -> str:
+    """The energy factor set for this formula in this market: the pack's default,
+    or the one the formula picks (product.energy_methods) among those the pack allows."""
+    chosen = (f.header.energy_methods or {}).get(pack.market)
+    if chosen is None:
+        return pack.panel.energy_factor_set
+    allowed = [pack.panel.energy_factor_set, *pack.panel.energy_factor_sets_allowed]
+    if chosen not in allowed:
+        raise InputError(Problem(f"energy method '{chosen}' is not allowed in market '{pack.market}'", file=f.file,
+                                 field=f"product.energy_methods.{pack.market}", fix=f"allowed: {', '.join(allowed)}"))
+    return chosen
+
+
 def declare(comp: Composition, pack: RulePack, *, rules_root: str | None = None) -> Declaration:
     """Declared values of one composition under one market's pack."""
     f = comp.formula
-    fs = load_factor_set(pack.panel.energy_factor_set, rules_root)
+    fs = load_factor_set(energy_method(f, pack), rules_root)
     energy = energy_of(comp, fs)
     available = energy_of(comp, load_factor_set("available", rules_root))
     notes: list[str] = []
@@ -181,7 +208,7 @@ def declare(comp: Composition, pack: RulePack, *, rules_root: str | None = None)
         rows.append(DeclaredRow(row.nutrient, row.label, nd.unit, row.requirement, shown, why, row.indent, row.bold,
                                 row.show_unit, {b: col_vals[b][row.nutrient] for b in columns}, declared, percent,
                                 pct_raw, list(dict.fromkeys(src)), values[row.nutrient][1],
-                                values[row.nutrient][0]))
+                                values[row.nutrient][0], pack.panel.unit_labels.get(nd.unit)))
     servings_text = _servings_text(comp, pack, serving, container, single)
     reviews = list(dict.fromkeys(energy.reviews))
     for r in rows:
@@ -190,7 +217,9 @@ def declare(comp: Composition, pack: RulePack, *, rules_root: str | None = None)
     if f.is_fried:
         notes.append("Fried product: oil uptake and moisture loss are estimates; laboratory analysis of fat and moisture "
                      "is the usual confirmation before a label is finalised.")
-    if energy.kcal is not None and available.kcal is not None and abs(energy.kcal - available.kcal) > 0.5:
+    differs = energy.kcal is not None and available.kcal is not None and (
+        bool(energy.reviews) or abs(energy.kcal - available.kcal) > 0.02 * max(available.kcal, 1.0))
+    if differs:
         notes.append(f"Declared energy ({energy.kcal:.0f} kcal/100 g under {fs.id}) differs from available energy "
                      f"({available.kcal:.0f} kcal/100 g): see the review notes.")
     return Declaration(pack.market, pack, comp, columns, serving, container, servings_text, single, dual, ref, rows,
@@ -236,26 +265,40 @@ def _shown(row: Row, pack: RulePack, declared, values, claims, kinds) -> tuple[b
 
     if row.requirement == "mandatory":
         return True, "mandatory"
+    v100 = values[row.nutrient][0]
+    for t in row.when:  # alternatives; every criterion of one trigger must hold
+        reasons = []
+        if t.claim is not None:
+            if not any(c.startswith(t.claim.lower()) for c in claims):
+                continue
+            reasons.append(f"a claim about '{t.claim}' is made")
+        if t.present:
+            if not present():
+                continue
+            reasons.append("present")
+        if t.added is not None:
+            if t.added not in kinds:
+                continue
+            reasons.append(f"an ingredient of kind '{t.added}' is added")
+        if t.at_least_per_100g is not None:
+            if v100 is None or to_decimal(v100) < to_decimal(t.at_least_per_100g):
+                continue
+            reasons.append(f"at least {format_number(to_decimal(t.at_least_per_100g))} per 100 g")
+        if t.at_least_percent_reference is not None:
+            if not row.percent or v100 is None:
+                continue
+            ref = pack.reference_values[row.percent].amount
+            if to_decimal(v100) / to_decimal(ref) * 100 < to_decimal(t.at_least_percent_reference):
+                continue
+            reasons.append(f"at least {t.at_least_percent_reference:g} % of the reference value per 100 g")
+        if reasons:
+            return True, "required: " + " and ".join(reasons)
     if row.requirement == "voluntary":
         if row.show == "always":
             return True, "voluntary (shown by default)"
         if row.show == "when_present" and present():
             return True, "voluntary, shown because present"
         return False, "voluntary, not shown"
-    v100 = values[row.nutrient][0]
-    for t in row.when:
-        if t.claim and any(c.startswith(t.claim.lower()) for c in claims):
-            return True, f"required: a claim about '{t.claim}' is made"
-        if t.present and present():
-            return True, "required: present"
-        if t.added and t.added in kinds:
-            return True, f"required: an ingredient of kind '{t.added}' is added"
-        if t.at_least_per_100g is not None and v100 is not None and to_decimal(v100) >= to_decimal(t.at_least_per_100g):
-            return True, f"required: at least {format_number(to_decimal(t.at_least_per_100g))} per 100 g"
-        if t.at_least_percent_reference is not None and row.percent and v100 is not None:
-            ref = pack.reference_values[row.percent].amount
-            if to_decimal(v100) / to_decimal(ref) * 100 >= to_decimal(t.at_least_percent_reference):
-                return True, f"required: at least {t.at_least_percent_reference:g} % of the reference value per 100 g"
     return False, "conditional, not triggered"
 
 
@@ -286,7 +329,7 @@ def declaration_dict(d: Declaration) -> dict:
     for r in d.rows:
         rows.append({
             "nutrient": r.nutrient,
-            "label": r.label,
+            "label": r.label_for(pb or d.columns[0]),
             "unit": r.unit,
             "shown": r.shown,
             "requirement": r.requirement,

@@ -53,7 +53,8 @@ class Header(Strict):
     servings_per_container: float | None = Field(None, gt=0)
     net_quantity: str | None = Field(None, description="net quantity with unit, e.g. '150 g'")
     reference_formula: str | None = Field(None, description="id or path of the formula a comparative claim compares with")
-    claims: list[str] = Field(default_factory=list, description="claims the label is meant to make (checked later)")
+    claims: list[str] = Field(default_factory=list, description="claims the label is meant to make (checked by 'assess')")
+    energy_methods: dict[str, str] | None = Field(None, description="market -> energy factor set id, where the market allows a choice (e.g. {us: us_101_9_method_b})")
     notes: str | None = None
 
     @field_validator("id")

@@ -99,7 +99,8 @@ class ReferenceValue(Cited):
 
 
 class Trigger(Strict):
-    """When a conditional row must be shown."""
+    """When a row must be shown.  Every criterion set in one trigger must hold
+    (AND); a row's triggers are alternatives (OR)."""
 
     claim: str | None = Field(None, description="shown when the formula lists a claim whose name starts with this")
     present: bool | None = Field(None, description="shown when the declared value is not zero")
@@ -120,6 +121,7 @@ class Row(Strict):
     percent_from: Literal["declared", "unrounded"] | None = None
     indent: int = Field(0, ge=0, le=3)
     bold: bool = False
+    italic_words: list[str] = Field(default_factory=list, description="words of the label printed in italics (e.g. 'Trans')")
     show_unit: bool = True
     citation: str = Field(min_length=3)
     confidence: Confidence
@@ -140,6 +142,8 @@ class Panel(Strict):
     percent_from: Literal["declared", "unrounded"] = "declared"
     percent_from_citation: str | None = None
     column_labels: dict[str, str] = Field(default_factory=dict)
+    unit_labels: dict[str, str] = Field(default_factory=dict, description="how units are printed, e.g. {ug: mcg}")
+    energy_factor_sets_allowed: list[str] = Field(default_factory=list, description="other factor sets the law allows; a formula may pick one (product.energy_methods)")
     footnotes: list[Footnote] = Field(default_factory=list)
     liquid_unit_basis: str = "per 100 ml"
     citation: str = Field(min_length=3)

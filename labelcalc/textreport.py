@@ -102,7 +102,10 @@ def declare_text(decls: list[Declaration]) -> str:
             headers += [f"{pct_label} ({BASIS_LABEL[b]})" for b in d.columns if b == (p.panel.percent_basis or b)]
         rows = []
         for r in d.shown_rows:
-            cells = ["  " * r.indent + r.label] + [r.text(b) for b in d.columns]
+            if r.amount_in_label:
+                cells = ["  " * r.indent + r.label_for(d.columns[0])] + ["" for b in d.columns]
+            else:
+                cells = ["  " * r.indent + r.label] + [r.text(b) for b in d.columns]
             if has_pct:
                 cells += [r.percent.get(b) or "" for b in d.columns if b == (p.panel.percent_basis or b)]
             rows.append(cells)
