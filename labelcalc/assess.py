@@ -544,7 +544,7 @@ def zero_row_reviews(decl: Declaration) -> list[str]:
     for r in decl.shown_rows:
         d = r.declared.get("per_serving")
         v = r.unrounded.get("per_serving")
-        if d is None or v is None or d.number is None or d.number != 0 or v <= 0:
+        if d is None or v is None or d.number is None or d.number != 0 or v <= 0 or r.unit != "g":
             continue
         rule = decl.pack.rounding[decl.pack.rows[[x.nutrient for x in decl.pack.rows].index(r.nutrient)].rounding]
         band = rule.bands[d.band]

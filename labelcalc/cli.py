@@ -154,6 +154,62 @@ def declare_cmd(
         typer.echo(declare_text(decls))
 
 
+def _reference(f, lib, packs):
+    """Compose the formula's reference formula (for comparative claims), if it names one."""
+    ref = f.header.reference_formula
+    if not ref:
+        return None
+    from .formula import FormulaIndex
+
+    index = FormulaIndex([Path(f.file).resolve().parent])
+    path = index.paths.get(ref) or (Path(f.file).resolve().parent / ref)
+    if not Path(path).exists():
+        raise LabelError(f"{f.file}: reference_formula '{ref}' not found (give a product id in the same folder or a path)")
+    rf = load_formula(path, lib)
+    return compose(rf, lib)
+
+
+def assessments(f, lib, packs):
+    from .assess import assess
+
+    comps = compose(f, lib)
+    ref = _reference(f, lib, packs)
+    out = []
+    for p in packs:
+        for i, c in enumerate(comps):
+            d = declare(c, p)
+            r = None
+            if ref:
+                rc = ref[min(i, len(ref) - 1)]
+                r = (rc, declare(rc, p))
+            out.append(assess(c, p, d, r))
+    return out
+
+
+@app.command("assess")
+@friendly
+def assess_cmd(
+    formula: Path = typer.Argument(..., help="Formula file (YAML)."),
+    market: str = MarketOpt,
+    library: Optional[Path] = LibraryOpt,
+    rules: Optional[Path] = RulesOpt,
+    as_json: bool = JsonOpt,
+):
+    """Claims, required statements, allergens, ingredient list and front-of-pack verdicts, each with its figures and citation."""
+    from .assess_json import assessment_dict
+    from .textreport import assess_text
+
+    lib = _library(formula, library)
+    f = load_formula(formula, lib)
+    items = assessments(f, lib, get_packs(market.split(","), rules))
+    if as_json:
+        doc = {"product": {"id": f.id, "name": f.header.name, "content_hash": f.content_hash},
+               "assessments": [assessment_dict(a) for a in items]}
+        typer.echo(json.dumps(doc, indent=2, ensure_ascii=False, default=str))
+    else:
+        typer.echo(assess_text(items))
+
+
 @rules_app.command("list")
 @friendly
 def rules_list(rules: Optional[Path] = RulesOpt):

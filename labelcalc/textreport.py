@@ -122,3 +122,63 @@ def declare_text(decls: list[Declaration]) -> str:
             out.append(f"Review: {rv.strip()}")
         out.append("")
     return "\n".join(out)
+
+
+def assess_text(items) -> str:
+    """Claims, statements, allergens, ingredient list and front-of-pack verdicts."""
+    out = []
+    for a in items:
+        d = a.declaration
+        f = d.composition.formula
+        title = f"Assessment — {d.pack.pack.name} ({a.market}) — {f.header.name}{scenario_title(d.composition)}"
+        out += [title, "=" * len(title), d.pack.pack.draft_notice, ""]
+        if a.claims:
+            out.append("Claims (tested on unrounded figures; for review — not part of the panel):")
+            for c in a.claims:
+                mark = {"eligible": "ELIGIBLE", "not eligible": "not eligible", "cannot tell": "CANNOT TELL"}[c.verdict]
+                out.append(f"  [{mark}] {c.label} ({c.claim})" + (" — intended" if c.intended else "") + f" — {c.citation}")
+                for x in c.failed:
+                    out.append(f"      failed: {x}")
+                for x in c.missing:
+                    out.append(f"      missing: {x}")
+                for x in c.notes:
+                    out.append(f"      note: {x}")
+                for x in c.texts:
+                    out.append(f"      required text: {x}")
+        if a.statements:
+            out.append("Required statements:")
+            for s in a.statements:
+                out.append(f"  [{s.status.upper()}] {s.text}")
+                out.append(f"      because: {s.trigger} — {s.citation} ({s.confidence})")
+                for x in s.figures:
+                    out.append(f"      figure: {x}")
+                if s.caution:
+                    out.append(f"      caution: {s.caution}")
+        al = a.allergens
+        out.append("Allergens: " + (al.get("statement") or "none declared from the ingredient data"))
+        for x in al.get("review", []):
+            out.append(f"  REVIEW: {x}")
+        out.append(f"  {al.get('caution')}")
+        if a.ingredient_list:
+            out.append(a.ingredient_list["text"])
+            for q in a.ingredient_list["quid"]:
+                out.append(f"  QUID: {q['ingredient']}: {q['text']}")
+            for x in a.ingredient_list["notes"]:
+                out.append(f"  note: {x}")
+        for fop in a.front_of_pack:
+            if fop.get("exempt"):
+                out.append(f"Front of pack — {fop['name']}: exempt")
+                continue
+            parts = []
+            for n, v in fop["verdicts"].items():
+                if "colour" in v:
+                    parts.append(f"{n} {v['colour']}")
+                else:
+                    hi = v.get("high_in")
+                    parts.append(f"{n} {'HIGH IN' if hi is True else 'cannot tell' if hi == 'cannot tell' else 'not high'}"
+                                 + (f" ({v['percent_dv']:.1f} % DV vs {v['threshold_percent']:g} %)" if "percent_dv" in v else ""))
+            out.append(f"Front of pack — {fop['name']}: " + ", ".join(parts))
+        for x in a.reviews:
+            out.append(f"REVIEW: {x}")
+        out.append("")
+    return "\n".join(out)
