@@ -210,6 +210,129 @@ def assess_cmd(
         typer.echo(assess_text(items))
 
 
+@app.command("range")
+def range_cmd(
+    source: Path = typer.Argument(..., help="Folder of formula files, or a .csv/.xlsx sheet (one row per batch line)."),
+    market: str = MarketOpt,
+    out: Path = typer.Option(Path("labelcalc-out"), "--out", "-o", help="Output folder for the summary tables."),
+    library: Optional[Path] = LibraryOpt,
+    rules: Optional[Path] = RulesOpt,
+    jobs: int = typer.Option(1, "--jobs", "-j", min=1, help="Parallel worker processes."),
+    register: Optional[Path] = typer.Option(None, "--register", help="Label register file (SQLite). Default: OUT/label-register.sqlite."),
+    no_register: bool = typer.Option(False, "--no-register", help="Do not compare with or update the label register."),
+    panels: bool = typer.Option(False, "--panels", help="Also write panel drafts (PDF) and calculation sheets."),
+    quiet: bool = typer.Option(False, "--quiet", "-q", help="No progress bar."),
+):
+    """Declare every product of a range for every market: summary table (CSV, XLSX, JSON), errors table and label register.
+
+    Exit code 0: every product produced; 1: some products failed (see errors.csv); 2: the run could not start."""
+    from .rangerun import run_range, write_outputs
+
+    try:
+        lib_path = library or find_library(source if source.is_dir() else source.parent / "x")
+        markets = [m.strip() for m in market.split(",") if m.strip()]
+        get_packs(markets, rules)
+        progress, stop = _progress(quiet)
+        try:
+            result = run_range(source, lib_path, markets, rules, jobs=jobs, progress=progress)
+        finally:
+            stop()
+        changes = None
+        if not no_register:
+            from .register import Register
+
+            reg = Register(register or out / "label-register.sqlite")
+            changes = reg.compare_and_record(result.labels)
+            reg.close()
+        files = write_outputs(out, result, changes)
+        if panels:
+            from .panelrun import write_panels
+
+            files += write_panels(source, lib_path, markets, rules, out, jobs=jobs)
+    except LabelError as exc:
+        typer.echo(f"error: {exc}", err=True)
+        raise typer.Exit(2) from None
+    n_ok, n_bad = result.products_ok, result.products_failed
+    typer.echo(f"{n_ok} product(s) labelled for {', '.join(markets)}; {n_bad} failed"
+               + (f" (see {out / 'errors.csv'})" if n_bad or result.errors else ""))
+    if changes is not None:
+        counts = {s: sum(1 for c in changes if c["status"] == s) for s in ("new", "changed", "unchanged")}
+        typer.echo(f"label register: {counts['new']} new, {counts['changed']} changed, {counts['unchanged']} unchanged"
+                   + (f" (see {out / 'changes.csv'})" if counts["changed"] else ""))
+        for c in changes:
+            if c["status"] == "changed":
+                typer.echo(f"  changed: {c['product_id']} [{c['market']}, {c['scenario']}]: {c['what_moved']} — because {c['why'] or 'see formula'}")
+    typer.echo("wrote " + ", ".join(str(f) for f in files[:6]) + (f" and {len(files) - 6} more" if len(files) > 6 else ""))
+    typer.echo("DRAFT figures: verify against current local regulation with a qualified regulatory professional.")
+    if result.errors:
+        raise typer.Exit(1)
+
+
+def _progress(quiet: bool):
+    """A progress bar on an interactive terminal; nothing otherwise."""
+    if quiet or not sys.stderr.isatty():
+        return None, lambda: None
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
+
+    bar = Progress(TextColumn("labelling"), BarColumn(), MofNCompleteColumn(),
+                   TextColumn("{task.fields[rate]} products/s"), TimeRemainingColumn(), transient=True)
+    task = bar.add_task("range", total=None, rate="-")
+    bar.start()
+
+    def update(done, total):
+        elapsed = bar.tasks[0].elapsed or 1e-9
+        bar.update(task, completed=done, total=total, rate=f"{done / elapsed:.0f}")
+
+    return update, bar.stop
+
+
+@app.command("register")
+@friendly
+def register_cmd(
+    db: Path = typer.Option(Path("labelcalc-out/label-register.sqlite"), "--db", help="Label register file."),
+    export: Optional[Path] = typer.Option(None, "--export", help="Write the register to this CSV file."),
+):
+    """List (or export) the labels recorded in the label register."""
+    from .rangerun import write_csv
+    from .register import Register
+
+    if not db.exists():
+        raise LabelError(f"{db}: no label register here — run 'labelcalc range' first or pass --db")
+    reg = Register(db)
+    rows = reg.rows()
+    reg.close()
+    if export:
+        write_csv(export, rows)
+        typer.echo(f"wrote {len(rows)} label(s) to {export}")
+        return
+    from .textreport import table
+
+    typer.echo(table(["product", "market", "scenario", "formula", "allergens", "claims", "recorded"],
+                     [[r["product_id"], r["market"], r["scenario"], r["formula_hash"], r["allergens"], r["claims"],
+                       r["recorded_at"]] for r in rows], "lllllll"))
+
+
+@app.command("where-used")
+@friendly
+def where_used_cmd(
+    ingredient: str = typer.Argument(..., help="Ingredient id of the library."),
+    db: Path = typer.Option(Path("labelcalc-out/label-register.sqlite"), "--db", help="Label register file."),
+):
+    """Every product and market label that uses an ingredient, directly or through sub-formulas."""
+    from .register import Register
+
+    if not db.exists():
+        raise LabelError(f"{db}: no label register here — run 'labelcalc range' first or pass --db")
+    reg = Register(db)
+    rows = reg.where_used(ingredient)
+    reg.close()
+    if not rows:
+        typer.echo(f"no recorded label uses '{ingredient}'")
+        return
+    for r in rows:
+        typer.echo(f"{r['product_id']}  [{r['market']}, {r['scenario']}]  {r['file']}")
+
+
 @rules_app.command("list")
 @friendly
 def rules_list(rules: Optional[Path] = RulesOpt):

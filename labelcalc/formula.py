@@ -338,7 +338,8 @@ def _hash(obj) -> str:
 
 
 def load_formula(path: str | Path, library: Library, *, search: list[Path] | None = None,
-                 _stack: tuple[str, ...] = (), _cache: dict | None = None, _index: FormulaIndex | None = None) -> Formula:
+                 _stack: tuple[str, ...] = (), _cache: dict | None = None, _index: FormulaIndex | None = None,
+                 fast: bool = False) -> Formula:
     """Load, validate and resolve a formula file and its sub-formulas.
 
     Sub-formulas are looked up by id in the formula's own folder tree (and in
@@ -351,10 +352,20 @@ def load_formula(path: str | Path, library: Library, *, search: list[Path] | Non
     if key in cache:
         return cache[key]
     index = _index or FormulaIndex([p.parent.resolve(), *[Path(s).resolve() for s in (search or [])]])
-    loaded = load_yaml(p)
-    formula = _build(loaded, library, index, _stack, cache)
+    if fast:  # parse once without line tracking; on any problem parse again to report lines
+        try:
+            formula = _build(load_yaml(p, with_lines=False), library, index, _stack, cache)
+        except InputError:
+            formula = _build(load_yaml(p), library, index, _stack, cache)
+    else:
+        formula = _build(load_yaml(p), library, index, _stack, cache)
     cache[key] = formula
     return formula
+
+
+def build_formula(data: dict, file: str, lines: dict, library: Library, index: FormulaIndex, cache: dict) -> Formula:
+    """Validate and resolve a formula given as data (e.g. rows of a spreadsheet)."""
+    return _build(LoadedYaml(data, lines, file), library, index, (), cache)
 
 
 def _build(loaded: LoadedYaml, library: Library, index: FormulaIndex, stack: tuple[str, ...], cache: dict) -> Formula:
