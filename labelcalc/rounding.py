@@ -64,7 +64,6 @@ class Condition(BaseModel):
     below: float | None = None
     up_to: float | None = None
     at_least: float | None = None
-    equals_zero: bool | None = Field(None, description="true: the other row is declared as 0")
 
 
 class Band(BaseModel):
