@@ -210,6 +210,34 @@ def assess_cmd(
         typer.echo(assess_text(items))
 
 
+@app.command("panel")
+@friendly
+def panel_cmd(
+    formula: Path = typer.Argument(..., help="Formula file (YAML)."),
+    market: str = MarketOpt,
+    out: Path = typer.Option(Path("labelcalc-out/panels"), "--out", "-o", help="Output folder."),
+    library: Optional[Path] = LibraryOpt,
+    rules: Optional[Path] = RulesOpt,
+    date: Optional[str] = typer.Option(None, "--date", help="Date printed on the drafts (YYYY-MM-DD); default today. Fix it for byte-identical output."),
+):
+    """Panel draft PDFs (one per market) with the calculation sheet (PDF pages and CSV)."""
+    from datetime import date as _date
+
+    from .panelrun import panels_for
+
+    lib = _library(formula, library)
+    packs = get_packs(market.split(","), rules)
+    f = load_formula(formula, lib)
+    files, failures = panels_for(formula, lib, packs, out, date or _date.today().isoformat(), _reference(f, lib, packs))
+    for p in files:
+        typer.echo(f"wrote {p}")
+    for x in failures:
+        typer.echo(f"PRE-FLIGHT CHECK FAILED: {x}", err=True)
+    typer.echo("DRAFT: verify against current local regulation with a qualified regulatory professional.")
+    if failures:
+        raise typer.Exit(1)
+
+
 @app.command("range")
 def range_cmd(
     source: Path = typer.Argument(..., help="Folder of formula files, or a .csv/.xlsx sheet (one row per batch line)."),

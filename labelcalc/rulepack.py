@@ -132,6 +132,21 @@ class Footnote(Cited):
     when: Literal["always", "percent_shown"] = "always"
 
 
+class PanelLayout(Strict):
+    """How the panel is drawn, where the law prescribes a form (sizes in mm and pt)."""
+
+    style: Literal["boxed", "table"] = Field("table", description="boxed: framed facts box; table: ruled table")
+    width_mm: float = Field(80, gt=30, le=200)
+    title_size_pt: float = Field(11, gt=5, le=40)
+    body_size_pt: float = Field(7.5, gt=5, le=14)
+    energy_large: bool = Field(False, description="print the first energy row large (as in a facts box)")
+    heavy_rule_after: list[str] = Field(default_factory=list, description="nutrient keys after which a heavy rule is drawn")
+    serving_lines_on_top: bool = Field(False, description="servings per container and serving size above the rows")
+    column_headers: dict[str, str] = Field(default_factory=dict, description="basis -> header text")
+    header_note: str | None = Field(None, description="a line under the title, e.g. 'Amount per serving'")
+    citation: str | None = None
+
+
 class Panel(Strict):
     title: str
     energy_factor_set: str
@@ -146,6 +161,7 @@ class Panel(Strict):
     energy_factor_sets_allowed: list[str] = Field(default_factory=list, description="other factor sets the law allows; a formula may pick one (product.energy_methods)")
     footnotes: list[Footnote] = Field(default_factory=list)
     liquid_unit_basis: str = "per 100 ml"
+    layout: PanelLayout = Field(default_factory=PanelLayout)
     citation: str = Field(min_length=3)
     confidence: Confidence
 

@@ -1,0 +1,76 @@
+"""Writing panel drafts and calculation sheets for one product or a range."""
+
+from __future__ import annotations
+
+from concurrent.futures import ProcessPoolExecutor
+from datetime import date as _date
+from pathlib import Path
+
+from .assess import assess
+from .calcsheet import write_calculation_csv
+from .composition import compose
+from .declare import declare
+from .errors import LabelError
+from .formula import load_formula
+from .library import Library, load_library
+from .panelpdf import write_panel_pdf
+from .preflight import run_checks
+from .rulepack import RulePack, get_packs
+from .safenames import inside, safe_name
+
+
+def panels_for(formula_path: Path, library: Library, packs: list[RulePack], out: Path, date: str,
+               reference=None) -> tuple[list[Path], list[str]]:
+    """Write `<id>.<market>.pdf` and `<id>.<market>.calculation.csv` for every market.
+
+    Returns the files and the failed pre-flight checks (as text)."""
+    f = load_formula(formula_path, library)
+    comps = compose(f, library)
+    files, failures = [], []
+    out.mkdir(parents=True, exist_ok=True)
+    stem = safe_name(f.id)
+    for p in packs:
+        items = []
+        for i, c in enumerate(comps):
+            d = declare(c, p)
+            ref = None
+            if reference:
+                rc = reference[min(i, len(reference) - 1)]
+                ref = (rc, declare(rc, p))
+            a = assess(c, p, d, ref)
+            checks = run_checks(a)
+            failures += [f"{f.id} [{p.market}, {c.scenario}] {x.name}: {x.detail}" for x in checks if not x.ok]
+            items.append((a, checks))
+        pdf = write_panel_pdf(items, inside(out, f"{stem}.{p.market}.pdf"), date)
+        csvp = write_calculation_csv([a for a, _ in items], inside(out, f"{stem}.{p.market}.calculation.csv"))
+        files += [pdf, csvp]
+    return files, failures
+
+
+def _one(args):
+    path, lib_path, markets, rules, out, date = args
+    lib = load_library(lib_path)
+    try:
+        return panels_for(Path(path), lib, get_packs(markets, rules), Path(out), date)
+    except LabelError as exc:
+        return [], [f"{path}: {exc}"]
+
+
+def write_panels(source: Path, lib_path: Path, markets: list[str], rules, out: Path, *, jobs: int = 1,
+                 date: str | None = None) -> list[Path]:
+    """Panels for every product file of a range folder (spreadsheet ranges: not yet)."""
+    from .sources import product_files
+
+    date = date or _date.today().isoformat()
+    paths = product_files(source) if source.is_dir() else []
+    args = [(str(p), str(lib_path), markets, str(rules) if rules else None, str(out / "panels"), date) for p in paths]
+    files: list[Path] = []
+    if jobs > 1:
+        with ProcessPoolExecutor(max_workers=jobs) as ex:
+            for fs, _ in ex.map(_one, args, chunksize=max(1, len(args) // (jobs * 4) or 1)):
+                files += fs
+    else:
+        for a in args:
+            fs, _ = _one(a)
+            files += fs
+    return files
