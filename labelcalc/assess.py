@@ -121,6 +121,11 @@ class _Context:
         return Figure(q, basis, v100 * (kcal_per_g or 0) / e * 100, "% of energy")
 
 
+def claim_key(name: str) -> str:
+    """A claim as written in a formula ('low fat', 'Low_Fat') to a pack claim id ('low_fat')."""
+    return "_".join(name.lower().replace("-", " ").split())
+
+
 def _op(a: Decimal, op: str, b: Decimal) -> bool:
     return {"<": a < b, "<=": a <= b, ">": a > b, ">=": a >= b}[op]
 
@@ -194,7 +199,7 @@ def evaluate_claim(claim: Claim, ctx: _Context, ref_ctx: _Context | None, *, ref
                      "identify the reference food and state the difference")
     verdict = NOT_ELIGIBLE if failed else CANNOT_TELL if missing else ELIGIBLE
     texts = [t.text for t in claim.texts] if verdict == ELIGIBLE else []
-    intended = any(c.lower() == claim.id for c in f.header.claims)
+    intended = any(claim_key(c) == claim.id for c in f.header.claims)
     return ClaimVerdict(claim.id, claim.label, verdict, failed, missing, figures, texts, claim.citation,
                         claim.confidence, notes, intended)
 
@@ -257,16 +262,18 @@ def evaluate_statement(st: Statement, ctx: _Context, claims: list[ClaimVerdict])
                     figures.append(f"{st.daily_intake_g:g} g a day is reached with about {st.daily_intake_g / per_serv:.1f} servings"
                                    " — judge whether that consumption is reasonably foreseeable")
         elif t.with_claim:
-            made = [c for c in claims if c.verdict == ELIGIBLE or c.intended]
+            intended = [c for c in claims if c.intended]
+            made = intended or [c for c in claims if c.verdict == ELIGIBLE]
             if not made:
                 continue
             hits = []
             for cond in t.conditions:
                 ok, fig, desc = _check(cond, ctx, None)
-                if ok:
+                if ok and fig.value is not None:  # "not applicable" is not a hit
                     hits.append(desc)
             if hits or not t.conditions:
-                reason = ("a claim is made or eligible (" + ", ".join(c.claim for c in made) + ")"
+                reason = (("a claim is made (" if intended else "if any claim is made — eligible: ")
+                          + ", ".join(c.claim for c in made) + (")" if intended else "")
                           + (": " + "; ".join(hits) if hits else ""))
                 figures += hits
         if reason:
@@ -351,7 +358,10 @@ def ingredient_list(ctx: _Context, allergens: dict) -> dict | None:
     comp = ctx.comp
     f = comp.formula
     alg_map = ctx.pack.allergens.entries if ctx.pack.allergens else {}
-    emph_keys = {k for e in alg_map.values() for k in e.from_keys} if alg_map else set()
+
+    def names_of(ing) -> list[str]:
+        keys = set(ing.allergens or [])
+        return [e.name for e in alg_map.values() if keys & set(e.from_keys)]
     total_water_lost = sum(s.water_lost_g for s in comp.steps) / comp.finished_grams * 100
 
     def items_of(formula, scale: float, finished: float, scenario: str, top: bool) -> list[dict]:
@@ -361,7 +371,7 @@ def ingredient_list(ctx: _Context, allergens: dict) -> dict | None:
             if ln.ingredient is not None:
                 ing = ln.ingredient
                 items.append({"name": ln.label_name or ing.label_name, "grams_per_100g": g, "id": ing.id,
-                              "allergen": bool(set(ing.allergens or []) & emph_keys),
+                              "allergen": bool(names_of(ing)), "allergen_names": names_of(ing),
                               "is_water": "water" in ing.kinds or ing.id == "water",
                               "components": [{"name": n, "allergen": False, "components": []} for n in (ing.sub_ingredients or [])]})
             else:
@@ -377,7 +387,7 @@ def ingredient_list(ctx: _Context, allergens: dict) -> dict | None:
             if st.oil_ingredient is not None:
                 ing = st.oil_ingredient
                 items.append({"name": ing.label_name, "grams_per_100g": g, "id": ing.id, "is_water": False,
-                              "allergen": bool(set(ing.allergens or []) & emph_keys), "components": []})
+                              "allergen": bool(names_of(ing)), "allergen_names": names_of(ing), "components": []})
             else:
                 sub = st.oil_formula
                 sfin = comp._table.finished[_key(sub)]["low" if scenario == "nominal" else scenario]
@@ -410,7 +420,8 @@ def ingredient_list(ctx: _Context, allergens: dict) -> dict | None:
                 it["quid"] = (rule.quid.over_100_text.format(grams=round(pct), name=it["name"].lower())
                               if pct > 100 else f"{format_number(to_decimal(round(pct)))}%")
                 quid.append({"ingredient": it["name"], "percent": pct, "text": it["quid"]})
-    text = rule.heading + " " + _render(items) + "."
+    emphasis = ctx.pack.allergens.emphasis if ctx.pack.allergens else "bold"
+    text = rule.heading + " " + _render(items, emphasis) + "."
     return {"heading": rule.heading, "items": items, "text": text, "quid": quid, "notes": notes,
             "citation": rule.citation, "confidence": rule.confidence}
 
@@ -452,14 +463,26 @@ def _flatten(items):
         yield from (c for c in _flatten([x for x in it["components"] if "grams_per_100g" in x]))
 
 
-def _render(items: list[dict]) -> str:
+def allergen_name(it: dict, emphasis: str, bold=str.upper) -> str:
+    """An ingredient's name with the market's allergen emphasis: bold (UPPER CASE in plain
+    text, bold in PDFs) or the allergen's name in parentheses, e.g. "Whey powder (milk)"."""
+    name = it["name"]
+    if not it.get("allergen"):
+        return name
+    if emphasis == "parentheses":
+        missing = [n for n in it.get("allergen_names", []) if n.lower() not in name.lower()]
+        return f"{name} ({', '.join(missing)})" if missing else name
+    return bold(name)
+
+
+def _render(items: list[dict], emphasis: str = "bold") -> str:
     parts = []
     for it in items:
-        name = it["name"].upper() if it.get("allergen") else it["name"]
+        name = allergen_name(it, emphasis)
         if it.get("quid"):
             name += f" ({it['quid']})"
         if it["components"]:
-            name += " (" + _render(it["components"]) + ")"
+            name += " (" + _render(it["components"], emphasis) + ")"
         parts.append(name)
     return ", ".join(parts)
 
@@ -569,9 +592,14 @@ def assess(comp: Composition, pack: RulePack, decl: Declaration, reference: tupl
             ref_q = evaluate_claim(by_id[cl.reference_must_not_qualify], ref_ctx, None).verdict == ELIGIBLE
         claims.append(evaluate_claim(cl, ctx, ref_ctx, ref_qualifies=ref_q))
     for name in comp.formula.header.claims:
-        if name.lower() not in by_id:
+        if claim_key(name) not in by_id:
             claims.append(ClaimVerdict(name, name, CANNOT_TELL, [], [f"the '{pack.market}' pack defines no claim '{name}'"],
                                        [], [], "-", "derived", intended=True))
+    eligible = {c.claim for c in claims if c.verdict == ELIGIBLE}
+    for cv in claims:
+        cl = by_id.get(cv.claim)
+        if cl and cv.verdict == ELIGIBLE:
+            cv.texts = [t.text for t in cl.texts if not set(t.unless_eligible) & eligible]
     statements = [s for s in (evaluate_statement(st, ctx, claims) for st in pack.statements) if s]
     allergens = allergen_report(ctx)
     ilist = ingredient_list(ctx, allergens)

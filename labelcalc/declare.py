@@ -190,7 +190,7 @@ def declare(comp: Composition, pack: RulePack, *, rules_root: str | None = None)
     values = nutrient_values(comp, pack, energy)
     col_vals = {b: {k: (None if v is None else v * scale[b]) for k, (v, _) in values.items()} for b in columns}
     col_dec = {b: {k: (None if v is None else to_decimal(v)) for k, v in col_vals[b].items()} for b in columns}
-    claims = [c.lower() for c in f.header.claims]
+    claims = ["_".join(c.lower().replace("-", " ").split()) for c in f.header.claims]
     kinds = {k for _, ln in f.walk() if ln.ingredient for k in ln.ingredient.kinds}
     rows: list[DeclaredRow] = []
     for row in pack.rows:
@@ -269,7 +269,7 @@ def _shown(row: Row, pack: RulePack, declared, values, claims, kinds) -> tuple[b
     for t in row.when:  # alternatives; every criterion of one trigger must hold
         reasons = []
         if t.claim is not None:
-            if not any(c.startswith(t.claim.lower()) for c in claims):
+            if not any(c.startswith("_".join(t.claim.lower().split())) for c in claims):
                 continue
             reasons.append(f"a claim about '{t.claim}' is made")
         if t.present:

@@ -215,36 +215,58 @@ def _energy_vectors(fs: FactorSet):
     return kj, kcal
 
 
-def energy_of(comp: Composition, fs: FactorSet) -> EnergyResult:
-    """Energy per 100 g of ``comp`` with factor set ``fs``.
+_PREPARED: dict[int, tuple] = {}
 
-    With ``ingredient_specific`` (21 CFR 101.9(c)(1)(i)(A)) the protein, fat
-    and carbohydrate terms come from each ingredient's own Atwater factors;
-    it is unknown when any ingredient lacks them.
-    """
+
+def _prepare(fs: FactorSet):
+    """Group matrices of a factor set: (groups x columns) kJ and kcal factors and masks."""
+    key = id(fs)
+    if key in _PREPARED and _PREPARED[key][0] is fs:
+        return _PREPARED[key][1]
     kj_v, kcal_v = _energy_vectors(fs)
-    vals, unk = comp.per_100g, comp.unknown
-    by_kj: dict[str, float | None] = {}
-    by_kcal: dict[str, float | None] = {}
-    unknown_because: list[str] = []
-    specific = fs.factor_set.ingredient_specific
-    if specific:  # general factors apply only to what specific factors do not cover
-        vals = vals.copy()
-        for k in ATWATER_REPLACED:
-            vals[COL[k]] = vals[COL[k]] - np.nan_to_num(vals[COL[f"atwater_covered_{k}"]])
-    for group, members in ENERGY_GROUPS.items():
-        cols = [COL[m] for m in members if m in COL]
+    groups = list(ENERGY_GROUPS)
+    gkj = np.zeros((len(groups), len(COLUMNS)))
+    gkcal = np.zeros_like(gkj)
+    for i, group in enumerate(groups):
+        cols = [COL[m] for m in ENERGY_GROUPS[group] if m in COL]
         if group == "partial_lipid":
             cols = [COL[k] for k in ("partial_lipid", "partial_lipid_kj", "partial_lipid_kcal",
                                      "partial_lipid_salatrim", "partial_lipid_other")]
-        ekj = float(np.dot(np.nan_to_num(vals[cols]), kj_v[cols]))
-        ekcal = float(np.dot(np.nan_to_num(vals[cols]), kcal_v[cols]))
-        relevant = [c for c in cols if kj_v[c] or kcal_v[c]]
-        if any(unk[c] for c in relevant):
-            by_kj[group] = by_kcal[group] = None
-            unknown_because.append(group)
-        else:
-            by_kj[group], by_kcal[group] = ekj, ekcal
+        gkj[i, cols] = kj_v[cols]
+        gkcal[i, cols] = kcal_v[cols]
+    relevant = (gkj != 0) | (gkcal != 0)
+    reviews = []
+    for f in fs.factors:
+        if f.review:
+            cols = [COL["partial_lipid"]] if "partial_lipid_own" in f.components else [COL[c] for c in f.components if c in COL]
+            reviews.append((cols, f.review))
+    prepared = (groups, gkj, gkcal, relevant, reviews)
+    _PREPARED[key] = (fs, prepared)
+    return prepared
+
+
+def energy_of(comp: Composition, fs: FactorSet) -> EnergyResult:
+    """Energy per 100 g of ``comp`` with factor set ``fs`` (cached on the composition).
+
+    With ``ingredient_specific`` (21 CFR 101.9(c)(1)(i)(A)) the protein, fat
+    and carbohydrate terms come from each ingredient's own Atwater factors
+    where the library gives them, general factors elsewhere.
+    """
+    cache = comp.__dict__.setdefault("_energy_cache", {})
+    if fs.id in cache and cache[fs.id].factor_set is fs:
+        return cache[fs.id]
+    groups, gkj, gkcal, relevant, review_cols = _prepare(fs)
+    vals = np.nan_to_num(comp.per_100g)
+    unk = comp.unknown
+    specific = fs.factor_set.ingredient_specific
+    if specific:  # general factors apply only to what specific factors do not cover
+        for k in ATWATER_REPLACED:
+            vals[COL[k]] -= vals[COL[f"atwater_covered_{k}"]]
+    e_kj, e_kcal = gkj @ vals, gkcal @ vals
+    g_unknown = (relevant & unk[None, :]).any(axis=1)
+    by_kj = {g: (None if u else float(x)) for g, x, u in zip(groups, e_kj, g_unknown)}
+    by_kcal = {g: (None if u else float(x)) for g, x, u in zip(groups, e_kcal, g_unknown)}
+    unknown_because = [g for g, u in zip(groups, g_unknown) if u]
     if specific:
         c = COL["specific_atwater_kcal"]
         if unk[c]:
@@ -253,17 +275,12 @@ def energy_of(comp: Composition, fs: FactorSet) -> EnergyResult:
         else:
             by_kcal["specific_atwater"] = float(vals[c])
             by_kj["specific_atwater"] = float(vals[c]) * fs.factor_set.kj_from_kcal if fs.factor_set.kj_from_kcal else None
-    known_kj = [v for v in by_kj.values()]
-    kj = None if unknown_because or any(v is None for v in known_kj) else float(sum(known_kj))
+    kj = None if unknown_because or any(v is None for v in by_kj.values()) else float(sum(by_kj.values()))
     kcal = None if unknown_because else float(sum(v for v in by_kcal.values() if v is not None))
-    reviews = []
-    for f in fs.factors:
-        if f.review:
-            amount = sum(float(np.nan_to_num(comp.per_100g[COL[c]])) for c in f.components if c in COL) \
-                if "partial_lipid_own" not in f.components else float(np.nan_to_num(comp.per_100g[COL["partial_lipid"]]))
-            if amount > 0:
-                reviews.append(f.review)
-    return EnergyResult(fs, kj, kcal, by_kj, by_kcal, unknown_because, reviews)
+    reviews = [text for cols, text in review_cols if vals[cols].sum() > 0]
+    res = EnergyResult(fs, kj, kcal, by_kj, by_kcal, unknown_because, reviews)
+    cache[fs.id] = res
+    return res
 
 
 def energy_by_line(comp: Composition, fs: FactorSet) -> list[tuple[str, float | None, float | None]]:

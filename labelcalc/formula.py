@@ -251,6 +251,9 @@ class Formula:
 
     def ingredients_used(self) -> list[Ingredient]:
         """Every library ingredient that reaches the product, through sub-formulas and frying oils."""
+        cached = self.__dict__.get("_ingredients_used")
+        if cached is not None:
+            return cached
         seen: dict[str, Ingredient] = {}
         for ln in self.lines:
             if ln.ingredient is not None:
@@ -261,7 +264,8 @@ class Formula:
         for sub in self.sub_formulas():
             for ing in sub.ingredients_used():
                 seen.setdefault(ing.id, ing)
-        return list(seen.values())
+        self.__dict__["_ingredients_used"] = list(seen.values())
+        return self.__dict__["_ingredients_used"]
 
     def serving_grams(self) -> float | None:
         if not self.header.serving:

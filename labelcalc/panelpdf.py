@@ -25,7 +25,7 @@ from reportlab.platypus import (Flowable, KeepTogether, PageBreak, Paragraph, Si
 from reportlab.lib.utils import simpleSplit
 
 from . import __version__
-from .assess import ELIGIBLE, Assessment
+from .assess import ELIGIBLE, Assessment, allergen_name
 from .calcsheet import calculation_rows
 from .declare import BASIS_LABEL, Declaration
 from .preflight import Check
@@ -264,9 +264,7 @@ def ingredient_paragraph(a: Assessment, st) -> Paragraph | None:
     def render(items):
         parts = []
         for it in items:
-            name = _esc(it["name"])
-            if it.get("allergen"):
-                name = f"<b>{name}</b>" if emph in ("bold", "bold_and_summary") else f"{name}"
+            name = allergen_name({**it, "name": _esc(it["name"])}, emph, bold=lambda s: f"<b>{s}</b>")
             if it.get("quid"):
                 name += f" ({_esc(it['quid'])})"
             if it["components"]:

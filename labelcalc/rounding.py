@@ -15,6 +15,7 @@ from pydantic import BaseModel, ConfigDict, Field, model_validator
 
 TIE_MODES = {"half_up": ROUND_HALF_UP, "half_even": ROUND_HALF_EVEN}
 _NOISE = Decimal("1e-9")
+_ZERO = Decimal(0)
 
 
 def to_decimal(x: float | int | str | Decimal) -> Decimal:
@@ -25,11 +26,13 @@ def to_decimal(x: float | int | str | Decimal) -> Decimal:
     >>> to_decimal(4.5)
     Decimal('4.5')
     """
-    if isinstance(x, Decimal):
-        d = x
-    else:
-        d = Decimal(repr(float(x))) if isinstance(x, float) else Decimal(str(x))
-    return d.quantize(_NOISE, rounding=ROUND_HALF_EVEN).normalize() if d != 0 else Decimal(0)
+    if isinstance(x, float):
+        if x == 0:
+            return _ZERO
+        # formatting to 9 decimals rounds the exact binary value: the noise goes, every label digit stays
+        return Decimal(f"{x:.9f}").normalize()
+    d = x if isinstance(x, Decimal) else Decimal(str(x))
+    return d.quantize(_NOISE, rounding=ROUND_HALF_EVEN).normalize() if d != 0 else _ZERO
 
 
 def round_to_step(value: Decimal, step: Decimal, tie: str = "half_up") -> Decimal:
@@ -90,11 +93,16 @@ class Band(BaseModel):
             raise ValueError("a band takes below or up_to, not both")
         return self
 
+    def model_post_init(self, _ctx) -> None:
+        self._below = None if self.below is None else to_decimal(self.below)
+        self._up_to = None if self.up_to is None else to_decimal(self.up_to)
+        self._step = None if self.step is None else to_decimal(self.step)
+
     def holds(self, v: Decimal) -> bool:
-        if self.below is not None:
-            return v < to_decimal(self.below)
-        if self.up_to is not None:
-            return v <= to_decimal(self.up_to)
+        if self._below is not None:
+            return v < self._below
+        if self._up_to is not None:
+            return v <= self._up_to
         return True
 
 
@@ -149,7 +157,7 @@ def apply_rounding(value: float | Decimal, rule: RoundingRule, others: dict[str,
             num = to_decimal(b.value) if b.value is not None else None
             return Rounded(number=num, text=b.declare, band=i, less_than=num is None or num != 0)
         if b.step is not None:
-            step = to_decimal(b.step)
+            step = b._step
             r = round_to_step(v, step, rule.tie)
             return Rounded(number=r, text=format_number(r, step if rule.keep_trailing_zeros else None), band=i)
         r = round_significant(v, b.significant_figures, rule.tie)  # type: ignore[arg-type]

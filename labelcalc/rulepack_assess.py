@@ -48,7 +48,7 @@ class ClaimText(Strict):
     text: str
     citation: str
     confidence: Confidence
-    when: Literal["always", "not_low_calorie"] = "always"
+    unless_eligible: list[str] = Field(default_factory=list, description="not needed when one of these claims is eligible (e.g. low_calorie)")
 
 
 class Claim(Strict):
