@@ -190,8 +190,12 @@ def evaluate_claim(claim: Claim, ctx: _Context, ref_ctx: _Context | None, *, ref
                 failed.append("no alternative holds: " + " | ".join("; ".join(r[2] for r in g if not r[0]) for g in group_results))
     used = [i for i in f.ingredients_used() if set(i.kinds) & set(claim.no_ingredient_kinds)]
     if used:
-        notes.append(f"uses {', '.join(i.id for i in used)} ({'/'.join(claim.no_ingredient_kinds)}): allowed only if the "
-                     "ingredient list footnotes it as adding a trivial amount — review")
+        notes.append(f"uses {', '.join(i.id for i in used)} ({'/'.join(claim.no_ingredient_kinds)}): allowed only as the "
+                     "claim's rule permits (e.g. a footnote in the ingredient list) — review")
+    banned = [i for i in f.ingredients_used() if set(i.kinds) & set(claim.fails_with_ingredient_kinds)]
+    if banned:
+        failed.append(f"an ingredient of kind {'/'.join(claim.fails_with_ingredient_kinds)} is added: "
+                      + ", ".join(i.id for i in banned))
     if claim.reference_must_not_qualify and ref_ctx is not None and ref_qualifies:
         failed.append(f"the reference food itself qualifies for '{claim.reference_must_not_qualify}'")
     if claim.kind == "comparative" and ref_ctx is not None:
@@ -227,6 +231,7 @@ def _leaf_component(ctx: _Context, components: list[str], from_kinds: list[str] 
 def evaluate_statement(st: Statement, ctx: _Context, claims: list[ClaimVerdict]) -> StatementFlag | None:
     f = ctx.comp.formula
     used = f.ingredients_used()
+    undecided: list[str] = []
     for t in st.triggers:
         figures: list[str] = []
         reason = None
@@ -242,10 +247,11 @@ def evaluate_statement(st: Statement, ctx: _Context, claims: list[ClaimVerdict])
             v = _leaf_component(ctx, t.components, t.from_kinds)
             what = "+".join(t.components) + (f" from {'/'.join(t.from_kinds)} ingredients" if t.from_kinds else "")
             if v is None:
-                return StatementFlag(st.id, st.text, f"cannot tell: {what} is unknown — flagged for review", [], st.citation,
-                                     st.confidence, st.caution, st.placement, status="review")
+                undecided.append(f"{what} is unknown")
+                continue
             if t.basis == "per_serving":
                 if ctx.decl.serving_g is None:
+                    undecided.append(f"{what} per serving: no serving size")
                     continue
                 v = v * ctx.decl.serving_g / 100
             unit = C.unit_of(t.components[0])
@@ -281,6 +287,9 @@ def evaluate_statement(st: Statement, ctx: _Context, claims: list[ClaimVerdict])
             if st.compensation:
                 _compensation(st, ctx, flag)
             return flag
+    if undecided:
+        return StatementFlag(st.id, st.text, "cannot tell: " + "; ".join(undecided) + " — flagged for review", [],
+                             st.citation, st.confidence, st.caution, st.placement, status="review")
     return None
 
 
@@ -325,14 +334,18 @@ def allergen_report(ctx: _Context) -> dict:
         for i in used:
             if i.allergens and set(i.allergens) & set(entry.from_keys):
                 present.setdefault(key, []).append(i.id)
+        def below(v: float) -> bool:
+            x, t = to_decimal(v * 10), to_decimal(entry.threshold_mg_per_kg)
+            return x < t if entry.threshold_inclusive else x <= t
+
         if entry.threshold_mg_per_kg is not None and key in present:
             comp = entry.component or "sulphites"
             v = ctx.comp.value(comp)
-            if v is not None and v * 10 < entry.threshold_mg_per_kg:
+            if v is not None and below(v):
                 present[key] = [f"{x} (below {entry.threshold_mg_per_kg:g} mg/kg: not declared)" for x in present[key]]
         if entry.component and entry.threshold_mg_per_kg is not None and key not in present:
             v = ctx.comp.value(entry.component)
-            if v is not None and v * 10 >= entry.threshold_mg_per_kg:
+            if v is not None and not below(v):
                 present[key] = [f"{entry.component} {v * 10:.0f} mg/kg"]
     declared = [k for k, src in present.items() if not all("not declared" in s for s in src)]
     names = [rules.entries[k].name for k in declared]
@@ -415,7 +428,7 @@ def ingredient_list(ctx: _Context, allergens: dict) -> dict | None:
         for it in _flatten(items):
             name = it["name"].lower()
             words = [w for w in name.replace(",", " ").split() if len(w) > 3]
-            if name in pname or (words and any(w.rstrip("s") in pname for w in words)):
+            if name in pname or any(_stem(w) in pname for w in words):
                 pct = it["grams_per_100g"]
                 it["quid"] = (rule.quid.over_100_text.format(grams=round(pct), name=it["name"].lower())
                               if pct > 100 else f"{format_number(to_decimal(round(pct)))}%")
@@ -424,6 +437,14 @@ def ingredient_list(ctx: _Context, allergens: dict) -> dict | None:
     text = rule.heading + " " + _render(items, emphasis) + "."
     return {"heading": rule.heading, "items": items, "text": text, "quid": quid, "notes": notes,
             "citation": rule.citation, "confidence": rule.confidence}
+
+
+def _stem(word: str) -> str:
+    """'potatoes' -> 'potato', 'onions' -> 'onion' (enough to find an ingredient named in a product name)."""
+    for suffix in ("oes", "es", "s"):
+        if word.endswith(suffix) and len(word) - len(suffix) >= 4:
+            return word[: -len(suffix)] + ("o" if suffix == "oes" else "")
+    return word
 
 
 def _key(f):
@@ -506,8 +527,14 @@ def _colours(fop: FrontOfPack, ctx: _Context) -> dict:
     bands = (fop.liquid_nutrients if f.header.form == "liquid" and fop.liquid_nutrients else fop.nutrients) or {}
     verdicts = {}
     s = ctx.decl.serving_g
+    per_ml = f.header.form == "liquid" and fop.liquid_nutrients is not None
     for n, b in bands.items():
         v = ctx.values[n][0]
+        if v is not None and per_ml:
+            if not f.header.density_g_per_ml:
+                verdicts[n] = {"colour": "cannot tell", "per_100g": None, "why": "a drink needs density_g_per_ml for per 100 ml"}
+                continue
+            v = v * f.header.density_g_per_ml
         if v is None:
             verdicts[n] = {"colour": "cannot tell", "per_100g": None}
             continue

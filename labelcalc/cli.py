@@ -238,6 +238,198 @@ def panel_cmd(
         raise typer.Exit(1)
 
 
+PricesOpt = typer.Option(None, "--prices", help="Price file (YAML: prices: {ingredient: {per_kg, currency}}); overrides library prices.")
+
+
+def _prices(path):
+    if path is None:
+        return None
+    from .costing import load_prices
+
+    return load_prices(path)
+
+
+def _pct(a, b):
+    return None if a is None or b is None or b == 0 else (a - b) / b * 100
+
+
+@app.command("compare")
+@friendly
+def compare_cmd(
+    formulas: list[Path] = typer.Argument(..., help="Two or more formula files; the first is the basis of the differences."),
+    market: str = MarketOpt,
+    library: Optional[Path] = LibraryOpt,
+    rules: Optional[Path] = RulesOpt,
+    prices: Optional[Path] = PricesOpt,
+    as_json: bool = JsonOpt,
+):
+    """Formulas side by side: energy, declared values, claims gained or lost, statements, cost."""
+    from .whatif import figures
+
+    if len(formulas) < 2:
+        raise LabelError("compare needs at least two formula files")
+    lib = _library(formulas[0], library)
+    packs = get_packs(market.split(","), rules)
+    pr = _prices(prices)
+    loaded = [load_formula(p, lib) for p in formulas]
+    pts = [figures(f, lib, packs, f.id, pr) for f in loaded]
+    base = pts[0]
+    doc = []
+    for f, fp in zip(loaded, pts):
+        for p, b in zip(fp, base):
+            doc.append({
+                "formula": f.id, "market": p.market, "scenario": p.scenario,
+                "available_kcal_per_serving": p.available_kcal_per_serving, "declared_kcal_per_serving": p.declared_kcal_per_serving,
+                "available_kcal_per_100g": p.available_kcal_per_100g, "declared_kcal_per_100g": p.declared_kcal_per_100g,
+                "change_available_kcal_per_serving": None if p.available_kcal_per_serving is None or b.available_kcal_per_serving is None
+                else p.available_kcal_per_serving - b.available_kcal_per_serving,
+                "change_available_percent": _pct(p.available_kcal_per_serving, b.available_kcal_per_serving),
+                "change_declared_percent": _pct(p.declared_kcal_per_serving, b.declared_kcal_per_serving),
+                "declared": p.declared,
+                "declared_changed": {k: [b.declared.get(k), v] for k, v in p.declared.items() if b.declared.get(k) != v},
+                "claims_gained": sorted(set(p.claims) - set(b.claims)), "claims_lost": sorted(set(b.claims) - set(p.claims)),
+                "statements_added": sorted(set(p.statements) - set(b.statements)),
+                "statements_removed": sorted(set(b.statements) - set(p.statements)),
+                "cost_per_serving": p.cost_per_serving, "cost_per_kg": p.cost_per_kg, "currency": p.currency,
+                "cost_change_per_serving": None if p.cost_per_serving is None or b.cost_per_serving is None
+                else p.cost_per_serving - b.cost_per_serving,
+                "cost_per_kcal_saved_per_serving": _cost_per_kcal(p, b),
+                "missing_prices": p.extra["missing_prices"],
+            })
+    if as_json:
+        typer.echo(json.dumps({"compared": [f.id for f in loaded], "basis": loaded[0].id, "rows": doc}, indent=2, default=str))
+        return
+    from .textreport import num, table
+
+    rows = [[r["formula"], r["market"], r["scenario"], num(r["available_kcal_per_serving"], 1), num(r["declared_kcal_per_serving"], 1),
+             num(r["change_available_percent"], 1) + " %" if r["change_available_percent"] is not None else "-",
+             (f"{r['cost_per_serving']:.4f} {r['currency']}" if r["cost_per_serving"] is not None else "unknown"),
+             " ".join([f"+{c}" for c in r["claims_gained"]] + [f"-{c}" for c in r["claims_lost"]]),
+             " ".join([f"+{c}" for c in r["statements_added"]] + [f"-{c}" for c in r["statements_removed"]])] for r in doc]
+    typer.echo(f"Compared with {loaded[0].id} (energy per serving in kcal; DRAFT figures)")
+    typer.echo(table(["formula", "market", "scenario", "available", "declared", "available vs basis", "cost/serving",
+                      "claims", "statements"], rows, "lllrrrrll"))
+    for r in doc:
+        if r["declared_changed"] and r["formula"] != loaded[0].id:
+            typer.echo(f"{r['formula']} [{r['market']}, {r['scenario']}]: " + "; ".join(
+                f"{k} {a} -> {b}" for k, (a, b) in r["declared_changed"].items()))
+
+
+def _cost_per_kcal(p, b):
+    if None in (p.cost_per_serving, b.cost_per_serving, p.available_kcal_per_serving, b.available_kcal_per_serving):
+        return None
+    saved = b.available_kcal_per_serving - p.available_kcal_per_serving
+    return None if saved <= 0 else (p.cost_per_serving - b.cost_per_serving) / saved
+
+
+ReplaceOpt = typer.Option(..., "--replace", help="Ingredient id to replace (wherever it is used, frying oil included).")
+WithOpt = typer.Option(..., "--with", help="Ingredient id that replaces it.")
+
+
+@app.command("sweep")
+@friendly
+def sweep_cmd(
+    formula: Path = typer.Argument(..., help="Formula file (YAML)."),
+    replace: str = ReplaceOpt,
+    with_: str = WithOpt,
+    start: float = typer.Option(0, "--from", help="First replacement level [%]."),
+    stop: float = typer.Option(100, "--to", help="Last replacement level [%]."),
+    step: float = typer.Option(10, "--step", help="Step between levels [%]."),
+    market: str = MarketOpt,
+    out: Path = typer.Option(Path("labelcalc-out/sweeps"), "--out", "-o", help="Output folder for CSV, JSON and the chart."),
+    library: Optional[Path] = LibraryOpt,
+    rules: Optional[Path] = RulesOpt,
+    prices: Optional[Path] = PricesOpt,
+):
+    """Replace a share of one ingredient by another, step by step: energy, declared values, claims, statements, cost, and a chart."""
+    from .charts import sweep_chart, sweep_series
+    from .rangerun import write_csv, write_json
+    from .safenames import inside, safe_name
+    from .whatif import first_levels, sweep
+
+    if step <= 0 or stop < start:
+        raise LabelError("--step must be above 0 and --to at least --from")
+    lib = _library(formula, library)
+    packs = get_packs(market.split(","), rules)
+    f = load_formula(formula, lib)
+    ref = _reference(f, lib, packs) or compose(f, lib)
+    levels, x = [], start
+    while x <= stop + 1e-9:
+        levels.append(round(x, 6))
+        x += step
+    rows = sweep(f, lib, packs, replace, with_, levels, _prices(prices), ref)
+    firsts = first_levels(rows)
+    table_rows = []
+    base_cost = {(p.market, p.scenario): p for p in rows[0][1]}
+    for lvl, pts in rows:
+        for p in pts:
+            b = base_cost[(p.market, p.scenario)]
+            table_rows.append({"level_percent": lvl, "market": p.market, "scenario": p.scenario,
+                               "available_kcal_per_serving": p.available_kcal_per_serving,
+                               "declared_kcal_per_serving": p.declared_kcal_per_serving,
+                               "available_kcal_per_100g": p.available_kcal_per_100g,
+                               "declared_kcal_per_100g": p.declared_kcal_per_100g,
+                               "cost_per_serving": p.cost_per_serving, "currency": p.currency,
+                               "cost_per_kcal_saved_per_serving": _cost_per_kcal(p, b),
+                               "claims_eligible": "; ".join(p.claims), "statements_required": "; ".join(p.statements),
+                               "front_of_pack": "; ".join(f"{k}={v}" for k, v in p.front_of_pack.items()),
+                               **{f"declared:{k}": v for k, v in p.declared.items()}})
+    out.mkdir(parents=True, exist_ok=True)
+    stem = safe_name(f"{f.id}.{replace}-to-{with_}")
+    csvp, jsonp = inside(out, stem + ".csv"), inside(out, stem + ".json")
+    write_csv(csvp, table_rows)
+    write_json(jsonp, {"formula": f.id, "replace": replace, "with": with_, "levels": levels, "rows": table_rows,
+                       "first_levels": firsts, "chart_series": sweep_series(rows)})
+    charts = sweep_chart(rows, firsts, f"{f.header.name}: {replace} replaced by {with_}", replace, with_, inside(out, stem + ".chart"))
+    from .textreport import num, table
+
+    typer.echo(table(["level %", "market", "scenario", "available kcal/serving", "declared kcal/serving", "cost/serving", "claims"],
+                     [[f"{r['level_percent']:g}", r["market"], r["scenario"], num(r["available_kcal_per_serving"], 1),
+                       num(r["declared_kcal_per_serving"], 1),
+                       "unknown" if r["cost_per_serving"] is None else f"{r['cost_per_serving']:.4f} {r['currency']}",
+                       r["claims_eligible"]] for r in table_rows], "lllrrrl"))
+    for k, v in sorted(firsts.items(), key=lambda kv: kv[1]):
+        typer.echo(f"from {v:g} %: {k}")
+    for p in (csvp, jsonp, *charts):
+        typer.echo(f"wrote {p}")
+
+
+@app.command("target")
+@friendly
+def target_cmd(
+    formula: Path = typer.Argument(..., help="Formula file (YAML)."),
+    replace: str = ReplaceOpt,
+    with_: str = WithOpt,
+    claim: str = typer.Option(..., "--claim", help="Claim id of the market's pack (see 'labelcalc rules show MARKET')."),
+    market: str = typer.Option(..., "--market", "-m", help="One market code."),
+    tolerance: float = typer.Option(0.01, "--tolerance", help="Precision of the level [percentage points]."),
+    library: Optional[Path] = LibraryOpt,
+    rules: Optional[Path] = RulesOpt,
+    prices: Optional[Path] = PricesOpt,
+):
+    """The smallest replacement level that makes a claim eligible, with the resulting declaration and cost."""
+    from .assess import claim_key
+    from .whatif import find_target
+
+    lib = _library(formula, library)
+    (pack,) = get_packs([market], rules)
+    f = load_formula(formula, lib)
+    ref = _reference(f, lib, [pack]) or compose(f, lib)
+    t = find_target(f, lib, pack, replace, with_, claim_key(claim), tolerance=tolerance, prices=_prices(prices), reference=ref)
+    typer.echo(f"{f.header.name} [{market}] — claim '{claim}' by replacing {replace} with {with_}: {t.note}")
+    if not t.reachable:
+        for b in t.blocking:
+            typer.echo(f"  blocked by: {b}")
+        raise typer.Exit(1)
+    for p in t.points:
+        typer.echo(f"  [{p.scenario}] available {p.available_kcal_per_serving:.1f} kcal/serving, declared "
+                   f"{p.declared_kcal_per_serving:.1f} kcal/serving"
+                   + (f", cost {p.cost_per_serving:.4f} {p.currency}/serving" if p.cost_per_serving is not None else ", cost unknown"))
+        typer.echo("    declared: " + "; ".join(f"{k} {v}" for k, v in p.declared.items()))
+    typer.echo("Reference for the comparison: " + (f.header.reference_formula or f"the formula itself at 0 % ({f.id})"))
+    typer.echo("DRAFT: verify against current local regulation with a qualified regulatory professional.")
+
+
 @app.command("range")
 def range_cmd(
     source: Path = typer.Argument(..., help="Folder of formula files, or a .csv/.xlsx sheet (one row per batch line)."),

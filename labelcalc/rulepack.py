@@ -253,7 +253,7 @@ def load_pack_file(path: str | Path, rules_root: str | Path | None = None) -> Ru
 
 
 @lru_cache(maxsize=16)
-def _load_all(folder: str) -> dict[str, RulePack]:
+def _load_all(folder: str) -> tuple[dict[str, RulePack], tuple]:
     base = Path(folder)
     if not base.is_dir():
         raise RuleError(Problem("rule pack folder not found", file=str(base), fix="check --rules"))
@@ -270,21 +270,26 @@ def _load_all(folder: str) -> dict[str, RulePack]:
         if p.market in packs:
             problems.add(f"market '{p.market}' is defined twice", file=str(f))
         packs[p.market] = p
-    problems.raise_if_any(RuleError)
-    return packs
+    return packs, tuple(problems.problems)
 
 
 def load_packs(folder: str | Path | None = None) -> dict[str, RulePack]:
-    """All packs in a folder, keyed by market code."""
-    return _load_all(str(packs_dir(folder).resolve()))
+    """All packs in a folder, keyed by market code; any broken pack is an error."""
+    packs, problems = _load_all(str(packs_dir(folder).resolve()))
+    if problems:
+        raise RuleError(list(problems))
+    return packs
 
 
 def get_packs(codes: list[str], folder: str | Path | None = None) -> list[RulePack]:
-    """Packs for market codes such as ['us', 'eu']; an unknown code is a clear error."""
-    packs = load_packs(folder)
+    """Packs for market codes such as ['us', 'eu']; an unknown code is a clear error.
+    A broken pack of another market does not stop the requested ones."""
+    packs, problems = _load_all(str(packs_dir(folder).resolve()))
     out = []
     for code in codes:
         code = code.strip().lower()
+        if code not in packs and problems:
+            raise RuleError([Problem(f"market '{code}' could not be loaded; the rule pack folder has problems")] + list(problems))
         if code not in packs:
             near = difflib.get_close_matches(code, list(packs), n=2)
             raise UnknownNameError(Problem(f"unknown market '{code}'",

@@ -58,7 +58,8 @@ class Claim(Strict):
     applies_to: Literal["any", "solid", "liquid"] = "any"
     conditions: list[Condition] = Field(default_factory=list, description="all must hold")
     alternatives: list[list[Condition]] = Field(default_factory=list, description="at least one group must hold in full")
-    no_ingredient_kinds: list[str] = Field(default_factory=list, description="no ingredient of these kinds may be added (unless the label footnotes it, flagged)")
+    no_ingredient_kinds: list[str] = Field(default_factory=list, description="an added ingredient of these kinds needs review (e.g. allowed with a footnote)")
+    fails_with_ingredient_kinds: list[str] = Field(default_factory=list, description="an added ingredient of these kinds makes the claim not eligible (e.g. no added sugars)")
     reference_must_not_qualify: str | None = Field(None, description="id of a claim the reference food may not itself meet")
     texts: list[ClaimText] = Field(default_factory=list, description="text the label must carry with the claim")
     citation: str = Field(min_length=3)
@@ -113,7 +114,8 @@ class Statement(Strict):
 class AllergenEntry(Strict):
     name: str = Field(description="the name the market prescribes in the statement")
     from_keys: list[str] = Field(description="library allergen keys that map to this entry")
-    threshold_mg_per_kg: float | None = Field(None, description="declared only at or above this level (sulphites)")
+    threshold_mg_per_kg: float | None = Field(None, description="declared only from this level (sulphites)")
+    threshold_inclusive: bool = Field(True, description="true: declared at the threshold; false: only above it")
     component: str | None = Field(None, description="component holding the amount for a threshold (e.g. sulphites)")
     name_species: bool = Field(False, description="the specific kind must be named (e.g. the tree nut)")
 

@@ -137,3 +137,10 @@ def test_fop_demo_kettle_crisps(pack):
     for c in compose(load_formula(eu.DEMO / "hl_kettle_sea_salt.yaml", lib), lib):
         got = colours(assess(c, pack, declare(c, pack)))
         assert got["fat"] == "red" and got["sugars"] == "green"
+
+
+def test_imported_eu_checks_run_with_the_uk_pack(lab):
+    assert lab.pack.market == "uk"
+    a = lab.one({"nonabsorbed_lipid": 20, "starch": 50})
+    (s,) = [s for s in a.statements if s.statement == "nonabsorbed_lipid_not_authorised"]
+    assert "GB market" in s.text and "retained Reg. (EU) 2015/2283" in s.text

@@ -1,0 +1,207 @@
+"""Formulation what-if: compare formulas, sweep a substitution, find a claim's target level.
+
+A substitution replaces a share of one ingredient (wherever it is used: batch
+lines at any depth, sub-formula lines such as the oil of a frying blend, the
+frying oil itself) by another, keeping every amount and processing step as it
+is.  Each level is an ordinary formula, so every figure comes from the same
+engine as ``declare`` and ``assess``.
+"""
+
+from __future__ import annotations
+
+import copy
+import hashlib
+from dataclasses import dataclass, field
+
+from .assess import ELIGIBLE, assess
+from .composition import compose
+from .costing import cost_of
+from .declare import declare
+from .errors import InputError, Problem
+from .formula import Formula, Header, Line
+from .library import Library
+from .quantities import Quantity
+from .rulepack import RulePack
+
+
+def _blend(old, new, share: float, library: Library) -> Formula:
+    """A 100 g blend: (100 - share) g of old and share g of new (zero lines dropped)."""
+    lines = []
+    if share < 100:
+        lines.append(Line(old.id, 100.0 - share, Quantity(100.0 - share, "mass", f"{100 - share:g} g"), ingredient=old))
+    if share > 0:
+        lines.append(Line(new.id, share, Quantity(share, "mass", f"{share:g} g"), ingredient=new))
+    h = hashlib.sha256(f"{old.id}>{new.id}@{share!r}".encode()).hexdigest()[:16]
+    head = Header(id=f"{old.id}__to__{new.id}__{share:g}", name=f"{old.label_name} / {new.label_name} ({share:g} % replaced)",
+                  label_name=old.label_name if share < 50 else new.label_name)
+    return Formula(head, "subformula", lines, [], "(substitution)", h, 100.0)
+
+
+def substitute(f: Formula, old_id: str, new_id: str, share: float, library: Library) -> Formula:
+    """A copy of ``f`` with ``share`` % of ingredient ``old_id`` replaced by ``new_id`` everywhere."""
+    if not 0 <= share <= 100:
+        raise InputError(Problem(f"replacement level {share:g} % is outside 0-100 %"))
+    old = library.get(old_id, field="--replace")
+    new = library.get(new_id, field="--with")
+    if old_id not in {i.id for i in f.ingredients_used()}:
+        raise InputError(Problem(f"'{old_id}' is not used in {f.id} (directly, in a sub-formula or as frying oil)",
+                                 file=f.file, field="--replace"))
+    blend = _blend(old, new, share, library)
+    memo: dict[int, Formula] = {}
+
+    def walk(g: Formula) -> Formula:
+        if id(g) in memo:
+            return memo[id(g)]
+        h = copy.copy(g)
+        h.__dict__.pop("_ingredients_used", None)
+        h.lines = []
+        for ln in g.lines:
+            ln2 = copy.copy(ln)
+            if ln.ingredient is not None and ln.ingredient.id == old_id:
+                ln2.ingredient, ln2.formula = None, blend
+            elif ln.formula is not None:
+                ln2.formula = walk(ln.formula)
+            h.lines.append(ln2)
+        h.steps = []
+        for st in g.steps:
+            st2 = copy.copy(st)
+            if st.oil_ingredient is not None and st.oil_ingredient.id == old_id:
+                st2.oil_ingredient, st2.oil_formula = None, blend
+            elif st.oil_formula is not None:
+                st2.oil_formula = walk(st.oil_formula)
+            h.steps.append(st2)
+        h.content_hash = hashlib.sha256(f"{g.content_hash}|{blend.content_hash}".encode()).hexdigest()[:16]
+        memo[id(g)] = h
+        return h
+
+    return walk(f)
+
+
+@dataclass
+class Point:
+    """Figures of one formula (one scenario) for one market."""
+
+    label: str
+    scenario: str
+    market: str
+    available_kcal_per_serving: float | None
+    available_kcal_per_100g: float | None
+    declared_kcal_per_serving: float | None
+    declared_kcal_per_100g: float | None
+    declared: dict[str, str]
+    claims: list[str]
+    statements: list[str]
+    front_of_pack: dict[str, str]
+    cost_per_kg: float | None
+    cost_per_serving: float | None
+    currency: str | None
+    extra: dict = field(default_factory=dict)
+
+
+def figures(f: Formula, library: Library, packs: list[RulePack], label: str, prices=None,
+            reference=None) -> list[Point]:
+    """Points for every market and scenario of a formula."""
+    comps = compose(f, library)
+    out = []
+    for p in packs:
+        for i, c in enumerate(comps):
+            d = declare(c, p)
+            ref = None
+            if reference is not None:
+                rc = reference[min(i, len(reference) - 1)]
+                ref = (rc, declare(rc, p))
+            a = assess(c, p, d, ref)
+            s = d.serving_g
+            cost = cost_of(c, prices)
+            av, de = d.available_energy.kcal, d.declared_energy.kcal
+            main = d.columns[0]
+            out.append(Point(
+                label, c.scenario, p.market,
+                None if av is None or s is None else av * s / 100, av,
+                None if de is None or s is None else de * s / 100, de,
+                {r.nutrient: (r.label_for(main) if r.amount_in_label else r.text(main)) for r in d.shown_rows},
+                [x.claim for x in a.claims if x.verdict == ELIGIBLE],
+                [x.statement for x in a.statements],
+                {f"{fo['scheme']}:{k}": str(v.get("colour", v.get("high_in"))) for fo in a.front_of_pack
+                 for k, v in fo.get("verdicts", {}).items()},
+                cost.per_kg, cost.per_serving, cost.currency,
+                {"missing_prices": cost.missing_prices, "claim_verdicts": a.claims},
+            ))
+    return out
+
+
+def sweep(f: Formula, library: Library, packs: list[RulePack], old: str, new: str, levels: list[float],
+          prices=None, reference=None) -> list[tuple[float, list[Point]]]:
+    return [(x, figures(substitute(f, old, new, x, library), library, packs, f"{x:g} %", prices, reference))
+            for x in levels]
+
+
+def first_levels(rows: list[tuple[float, list[Point]]]) -> dict[str, float]:
+    """The first level at which each claim becomes eligible or each statement required (per market)."""
+    firsts: dict[str, float] = {}
+    prev: dict[str, bool] = {}
+    for x, points in rows:
+        seen = set()
+        for pt in points:
+            seen |= {f"{pt.market}: claim {c}" for c in pt.claims}
+            seen |= {f"{pt.market}: statement {s}" for s in pt.statements}
+        for key in seen:
+            if key not in firsts and not prev.get(key, False) and x != rows[0][0]:
+                firsts[key] = x
+        prev = {k: True for k in seen}
+    return firsts
+
+
+@dataclass
+class TargetResult:
+    claim: str
+    market: str
+    level: float | None
+    tolerance: float
+    reachable: bool
+    blocking: list[str]
+    points: list[Point]
+    note: str
+
+
+def find_target(f: Formula, library: Library, pack: RulePack, old: str, new: str, claim: str, *,
+                tolerance: float = 0.01, prices=None, reference=None) -> TargetResult:
+    """The smallest replacement level (0-100 %) at which ``claim`` is eligible in every scenario.
+
+    A scan in 1 % steps finds the first eligible level; bisection then narrows the step in which
+    it changes to ``tolerance`` percentage points (rounding makes eligibility piecewise)."""
+    if claim not in {c.id for c in pack.claims}:
+        raise InputError(Problem(f"the '{pack.market}' pack has no claim '{claim}'",
+                                 fix="known: " + ", ".join(c.id for c in pack.claims)))
+
+    def ok(x: float) -> tuple[bool, list[Point]]:
+        pts = figures(substitute(f, old, new, x, library), library, [pack], f"{x:g} %", prices, reference)
+        return all(claim in p.claims for p in pts), pts
+
+    prev = 0.0
+    good, pts = ok(0.0)
+    if good:
+        return TargetResult(claim, pack.market, 0.0, tolerance, True, [], pts, "eligible without any replacement")
+    for x in [float(i) for i in range(1, 101)]:
+        good, pts = ok(x)
+        if good:
+            lo, hi = prev, x
+            hi_pts = pts
+            while hi - lo > tolerance:
+                mid = (lo + hi) / 2
+                g, p2 = ok(mid)
+                if g:
+                    hi, hi_pts = mid, p2
+                else:
+                    lo = mid
+            return TargetResult(claim, pack.market, hi, tolerance, True, [], hi_pts,
+                                f"eligible from {hi:.2f} % replacement (to within {tolerance:g} percentage points)")
+        prev = x
+    _, pts = ok(100.0)
+    blocking = []
+    for p in pts:
+        for v in p.extra["claim_verdicts"]:
+            if v.claim == claim:
+                blocking += [f"[{p.scenario}] {x}" for x in v.failed + v.missing]
+    return TargetResult(claim, pack.market, None, tolerance, False, blocking, pts,
+                        "the claim cannot be reached by this substitution, even at 100 %")

@@ -1,0 +1,181 @@
+"""Codex: allergens and the ingredient list of the General Standard for the Labelling of Prepackaged Foods,
+CXS 1-1985 (rules/markets/codex_cxg_2_1985.yaml).
+
+Section 4.2.1.4 (pre-2024 text) was read as quoted in secondary reproductions; sesame (the 2024 revision) is
+"from memory — verify" and is included to err toward declaring. Section 4.2.1 (ingredient list) is from
+memory — verify, except the compound-ingredient rule (FAO copy, secondary). CXS 1-1985 requires no advisory
+statements of the aspartame or polyol kind, so the pack has none.
+"""
+
+from __future__ import annotations
+
+import pytest
+import yaml
+
+from labelcalc.assess import assess
+from labelcalc.composition import compose
+from labelcalc.declare import declare
+from labelcalc.formula import load_formula
+from labelcalc.library import load_library
+from labelcalc.rulepack import load_packs
+
+PACK = load_packs()["codex"]
+
+
+def _ingredient(per100: dict, *, name="Test food", kinds=(), allergens=(), substance=None, omit_allergens=False):
+    body = dict(per100)
+    minerals_mg = sum(body.get(k, 0) for k in ("sodium", "potassium", "calcium", "iron"))
+    if minerals_mg and "ash" not in body:
+        body["ash"] = minerals_mg / 1000 * 3
+    solids = sum(v for k, v in body.items() if k in (
+        "protein", "fat", "sugars", "starch", "fibre_soluble", "fibre_insoluble", "nonabsorbed_lipid", "sorbitol",
+        "mannitol", "maltitol", "xylitol", "isomalt", "lactitol", "erythritol", "glycerol", "ash"))
+    body.setdefault("water", max(0.0, 100.0 - solids - 0.001))
+    ing = {"label_name": name, "source": "test data (invented round numbers)", "unlisted": "zero", "per_100g": body,
+           "kinds": list(kinds)}
+    if not omit_allergens:
+        ing["allergens"] = list(allergens)
+    if substance:
+        ing["substance"] = substance
+    return ing
+
+
+class Lab:
+    """A small library and formulas in tmp_path, assessed under a pack."""
+
+    def __init__(self, tmp_path, pack):
+        self.dir, self.pack = tmp_path, pack
+        self.ingredients: dict[str, dict] = {}
+
+    def add(self, ing_id, per100, **kw):
+        self.ingredients[ing_id] = _ingredient(per100, **kw)
+        return ing_id
+
+    def _library(self):
+        d = self.dir / "ingredients"
+        d.mkdir(exist_ok=True)
+        (d / "lib.yaml").write_text(yaml.safe_dump({"ingredients": self.ingredients}, sort_keys=False), encoding="utf-8")
+        return load_library(d)
+
+    def formula(self, fid, batch, *, category="snacks", serving="30 g", sub=False, processing=None, name=None,
+                extra=None):
+        head = {"id": fid, "name": name or f"Test {fid}", **(extra or {})}
+        if sub:
+            head["label_name"] = name or f"Test {fid}"
+            doc = {"subformula": head, "batch": batch}
+        else:
+            head.update({"category": category, "serving": {"size": serving, "household": "1 piece"}})
+            doc = {"product": head, "batch": batch}
+        if processing:
+            doc["processing"] = processing
+        p = self.dir / f"{fid}.yaml"
+        p.write_text(yaml.safe_dump(doc, sort_keys=False), encoding="utf-8")
+        return p
+
+    def assess(self, path, reference_path=None, pack=None):
+        pack = pack or self.pack
+        lib = self._library()
+        (c,) = compose(load_formula(path, lib), lib)
+        ref = None
+        if reference_path is not None:
+            (rc,) = compose(load_formula(reference_path, lib), lib)
+            ref = (rc, declare(rc, pack))
+        return assess(c, pack, declare(c, pack), ref)
+
+
+@pytest.fixture
+def lab(tmp_path):
+    return Lab(tmp_path, PACK)
+
+
+def one(lab, per100, *, fid="p", category="snacks", serving="30 g", extra=None, **kw):
+    ing = lab.add(f"{fid}_food", per100, **kw)
+    return lab.formula(fid, [{"ingredient": ing, "amount": "100 g"}], category=category, serving=serving, extra=extra)
+
+
+def verdict(a, claim_id):
+    (c,) = [c for c in a.claims if c.claim == claim_id]
+    return c.verdict
+
+
+def claim(a, claim_id):
+    (c,) = [c for c in a.claims if c.claim == claim_id]
+    return c
+
+
+def statement(a, st_id):
+    hits = [s for s in a.statements if s.statement == st_id]
+    return hits[0] if hits else None
+
+
+
+@pytest.mark.parametrize("key, name", [
+    ("wheat", "[cereal containing gluten: name it]"),
+    ("oats", "[cereal containing gluten: name it]"),
+    ("crustaceans", "crustacea"),
+    ("egg", "eggs"),
+    ("fish", "fish"),
+    ("peanuts", "peanuts"),
+    ("soy", "soybeans"),
+    ("milk", "milk"),
+    ("tree_nuts", "tree nuts"),
+    ("sesame", "sesame"),          # 2024 revision (from memory — verify)
+])
+def test_listed_hypersensitivity_foods_are_declared(lab, key, name):
+    ing = lab.add("a", {"protein": 20, "starch": 50}, name=f"Ingredient {key}", allergens=[key])
+    base = lab.add("base", {"starch": 80})
+    a = lab.assess(lab.formula("p", [{"ingredient": ing, "amount": "10 g"}, {"ingredient": base, "amount": "90 g"}]))
+    assert a.allergens["declared"] == [name]
+
+
+@pytest.mark.parametrize("key", ["mustard", "celery", "lupin", "molluscs"])
+def test_foods_not_on_the_codex_list_are_not_declared(lab, key):
+    # not in 4.2.1.4 (pre-2024 text); national lists add them
+    ing = lab.add("a", {"protein": 20, "starch": 50}, name=f"Ingredient {key}", allergens=[key])
+    a = lab.assess(lab.formula("p", [{"ingredient": ing, "amount": "100 g"}]))
+    assert a.allergens["declared"] == []
+
+
+@pytest.mark.parametrize("mg_per_100g, declared", [(1.0, True), (0.99, False), (1.01, True)])
+def test_sulphite_10_mg_per_kg(lab, mg_per_100g, declared):
+    # "sulphite in concentrations of 10 mg/kg or more" (4.2.1.4)
+    fruit = lab.add("fruit", {"sugars": 60, "sulphites": mg_per_100g * 2}, name="Dried apricots", allergens=["sulphites"])
+    base = lab.add("base", {"starch": 80})
+    p = lab.formula("mix", [{"ingredient": fruit, "amount": "50 g"}, {"ingredient": base, "amount": "50 g"}])
+    assert ("sulphite" in lab.assess(p).allergens["declared"]) is declared
+
+
+def test_allergen_through_a_subformula_and_compound_ingredient(lab):
+    whey = lab.add("whey", {"protein": 12, "sugars": 70}, name="Whey powder", allergens=["milk"])
+    base = lab.add("base", {"starch": 80}, name="Maize starch")
+    lab.formula("coat", [{"ingredient": whey, "amount": "40 g"}, {"ingredient": base, "amount": "60 g"}], sub=True,
+                name="Coating")
+    p = lab.formula("bar", [{"ingredient": base, "amount": "70 g"}, {"subformula": "coat", "amount": "30 g"}])
+    a = lab.assess(p)
+    assert a.allergens["declared"] == ["milk"]
+    # 4.2.1.3: compound ingredient with its ingredients in brackets, in descending order
+    assert a.ingredient_list["text"] == "Ingredients: Maize starch, Coating (Maize starch, WHEY POWDER)."
+
+
+def test_allergens_unknown_are_flagged(lab):
+    mystery = lab.add("mystery", {"starch": 50}, name="Flavouring", omit_allergens=True)
+    base = lab.add("base", {"starch": 80})
+    a = lab.assess(lab.formula("m", [{"ingredient": base, "amount": "99 g"}, {"ingredient": mystery, "amount": "1 g"}]))
+    assert any("allergens unknown for mystery" in r for r in a.reviews)
+
+
+def test_ingredient_list_by_ingoing_weight(lab):
+    # 4.2.1.2: descending order of ingoing weight (m/m) at the time of manufacture (from memory — verify);
+    # added water is declared at its ingoing weight (4.2.1.5)
+    flour = lab.add("flour", {"starch": 88, "protein": 12}, name="Wheat flour", allergens=["wheat"])
+    water = lab.add("water", {"water": 100}, name="Water", kinds=["water"])
+    p = lab.formula("bake", [{"ingredient": flour, "amount": "45 g"}, {"ingredient": water, "amount": "55 g"}],
+                    processing=[{"step": "baking", "finished_weight": "70 g"}])
+    assert lab.assess(p).ingredient_list["text"].startswith("Ingredients: Water, WHEAT FLOUR")
+
+
+def test_no_statements_and_no_claims_in_the_codex_pack(lab):
+    asp = lab.add("aspartame", {"protein": 0.001}, name="Aspartame", kinds=["sweetener"], substance="aspartame")
+    base = lab.add("base", {"starch": 80})
+    a = lab.assess(lab.formula("s", [{"ingredient": asp, "amount": "0.1 g"}, {"ingredient": base, "amount": "99.9 g"}]))
+    assert a.statements == [] and a.claims == []
