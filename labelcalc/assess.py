@@ -283,7 +283,8 @@ def evaluate_statement(st: Statement, ctx: _Context, claims: list[ClaimVerdict])
                           + (": " + "; ".join(hits) if hits else ""))
                 figures += hits
         if reason:
-            flag = StatementFlag(st.id, st.text, reason, figures, st.citation, st.confidence, st.caution, st.placement)
+            flag = StatementFlag(st.id, st.text, reason, figures, st.citation, st.confidence, st.caution, st.placement,
+                                 status=st.status)
             if st.compensation:
                 _compensation(st, ctx, flag)
             return flag
@@ -427,7 +428,7 @@ def ingredient_list(ctx: _Context, allergens: dict) -> dict | None:
         pname = f.header.name.lower()
         for it in _flatten(items):
             name = it["name"].lower()
-            words = [w for w in name.replace(",", " ").split() if len(w) > 3]
+            words = [w for w in name.replace(",", " ").split() if len(w) >= 3]
             if name in pname or any(_stem(w) in pname for w in words):
                 pct = it["grams_per_100g"]
                 it["quid"] = (rule.quid.over_100_text.format(grams=round(pct), name=it["name"].lower())
@@ -564,7 +565,8 @@ def _high_in(fop: FrontOfPack, ctx: _Context) -> dict:
         if "reference_amount_up_to" in t and ref_g is not None and ref_g <= t["reference_amount_up_to"]:
             threshold = t["percent"]
             break
-        if t.get("main_dish") and ctx.comp.formula.header.category in t.get("categories", []):
+        if (t.get("main_dish") and ctx.comp.formula.header.category in t.get("categories", [])
+                and (ref_g or 0) >= t.get("reference_amount_at_least", 0)):
             threshold = t["percent"]
             break
         if set(t) == {"percent"}:

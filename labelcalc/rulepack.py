@@ -19,7 +19,7 @@ from . import components as C
 from .energy import Confidence, load_factor_set, rules_dir
 from .errors import Problem, ProblemList, RuleError, UnknownNameError
 from .rounding import RoundingRule
-from .rulepack_assess import Allergens, Claim, FrontOfPack, IngredientListRule, Statement
+from .rulepack_assess import Allergens, Claim, Compliance, FrontOfPack, IngredientListRule, Statement
 from .yamlsafe import load_yaml, pydantic_problems
 
 Basis = Literal["per_100g", "per_serving", "per_container"]
@@ -179,6 +179,7 @@ class RulePack(Strict):
     allergens: Allergens | None = None
     ingredient_list: IngredientListRule | None = None
     front_of_pack: list[FrontOfPack] = Field(default_factory=list)
+    compliance: Compliance | None = None
 
     @model_validator(mode="after")
     def _refs(self):
@@ -208,6 +209,10 @@ class RulePack(Strict):
                 for cond in t.conditions:
                     if cond.quantity not in self.nutrients:
                         errs.append(f"statements[{i}] ({st.id}) uses '{cond.quantity}', which is not defined under 'nutrients'")
+        for rule in (self.compliance.rules if self.compliance else []):
+            for k in rule.nutrients:
+                if k not in self.nutrients:
+                    errs.append(f"compliance rule {rule.id} uses '{k}', which is not defined under 'nutrients'")
         for fop in self.front_of_pack:
             for k in list((fop.nutrients or {})) + list((fop.high_in or {})):
                 if k not in self.nutrients:

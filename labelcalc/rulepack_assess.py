@@ -102,6 +102,7 @@ class Compensation(Strict):
 class Statement(Strict):
     id: str = Field(pattern=r"^[a-z][a-z0-9_]*$")
     text: str
+    status: Literal["required", "review"] = Field("required", description="review: an advisory note for a regulatory professional, not a label text")
     triggers: list[StatementTrigger] = Field(min_length=1)
     caution: str | None = None
     placement: str | None = None
@@ -171,11 +172,37 @@ class FrontOfPack(Strict):
     confidence: Confidence
 
 
-class AssessRules(Strict):
-    """The optional sections of a pack that ``labelcalc assess`` uses."""
+class ToleranceBand(Strict):
+    """Allowed deviation of an analysed value from the declared one, for declared amounts in a range."""
 
-    claims: list[Claim] = Field(default_factory=list)
-    statements: list[Statement] = Field(default_factory=list)
-    allergens: Allergens | None = None
-    ingredient_list: IngredientListRule | None = None
-    front_of_pack: list[FrontOfPack] = Field(default_factory=list)
+    below: float | None = Field(None, description="band holds when the declared value (per 100 g) is below this")
+    minus: float | None = Field(None, ge=0, description="allowed shortfall, absolute, in the nutrient's unit")
+    plus: float | None = Field(None, ge=0, description="allowed excess, absolute")
+    minus_percent: float | None = Field(None, ge=0)
+    plus_percent: float | None = Field(None, ge=0)
+
+
+class ComplianceRule(Strict):
+    """How an analysed value is judged against a declared one (a market's compliance rule)."""
+
+    id: str
+    nutrients: list[str] = Field(min_length=1, description="pack nutrient keys the rule covers")
+    applies_to: Literal["any", "added", "naturally_occurring"] = Field(
+        "any", description="added: the nutrient is added (fortificant ingredients); naturally_occurring: it is not")
+    basis: Literal["per_100g", "per_serving"] = "per_100g"
+    compare_with: Literal["declared", "unrounded"] = "declared"
+    min_percent_of_declared: float | None = None
+    max_percent_of_declared: float | None = None
+    bands: list[ToleranceBand] = Field(default_factory=list)
+    uncertainty: Literal["included", "widens"] = Field(
+        "included", description="included: the limits already allow for measurement uncertainty; widens: the lab's expanded uncertainty is added")
+    citation: str = Field(min_length=3)
+    confidence: Confidence
+    note: str | None = None
+
+
+class Compliance(Strict):
+    rules: list[ComplianceRule]
+    default_uncertainty_note: str | None = None
+    citation: str = Field(min_length=3)
+    confidence: Confidence

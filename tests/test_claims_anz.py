@@ -214,7 +214,7 @@ def test_no_added_sugar(lab):
     base = lab.add("base", {"starch": 60})
     a = lab.assess(lab.formula("s", [{"ingredient": base, "amount": "99 g"}, {"ingredient": sug, "amount": "1 g"}]))
     c = claim(a, "no_added_sugar")
-    assert c.verdict == NOT_ELIGIBLE and any("sugar" in n for n in c.notes)
+    assert c.verdict == NOT_ELIGIBLE and any("sugar" in f for f in c.failed)
 
 
 # --- advisory statements ---------------------------------------------------------------------------------

@@ -244,11 +244,13 @@ def test_no_added_sugars_and_unsweetened(lab):
     base = lab.add("base", {"starch": 60})
     a = lab.assess(lab.formula("sweet", [{"ingredient": base, "amount": "95 g"}, {"ingredient": sug, "amount": "5 g"}]))
     assert verdict(a, "no_added_sugars") == NOT_ELIGIBLE
-    # B.01.509(1)(b): a sweetener rules "unsweetened" out; the engine reports the ingredient for review
+    assert any("sugar" in f for f in claim(a, "no_added_sugars").failed)
+    # B.01.509(1)(b) (confirmed): the food does not contain a sweetener
     asp = lab.add("aspartame", {"protein": 0.001}, name="Aspartame", kinds=["sweetener", "additive"], substance="aspartame")
     b = lab.assess(lab.formula("swt", [{"ingredient": base, "amount": "99.9 g"}, {"ingredient": asp, "amount": "0.1 g"}]))
+    assert verdict(b, "no_added_sugars") == ELIGIBLE
     c = claim(b, "unsweetened")
-    assert any("aspartame" in n and "review" in n for n in c.notes)
+    assert c.verdict == NOT_ELIGIBLE and any("aspartame" in f for f in c.failed)
 
 
 # --- statements -----------------------------------------------------------------------------------------
