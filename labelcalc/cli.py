@@ -430,6 +430,84 @@ def target_cmd(
     typer.echo("DRAFT: verify against current local regulation with a qualified regulatory professional.")
 
 
+@app.command("verify")
+@friendly
+def verify_cmd(
+    formula: Path = typer.Argument(..., help="Formula file (YAML)."),
+    lab: Path = typer.Option(..., "--lab", help="Laboratory certificate (YAML or CSV)."),
+    market: str = MarketOpt,
+    margin: float = typer.Option(5.0, "--margin", help="Flag figures within this % of the declared value from a limit."),
+    force: bool = typer.Option(False, "--force", help="Compare even if the certificate names another product id."),
+    library: Optional[Path] = LibraryOpt,
+    rules: Optional[Path] = RulesOpt,
+    as_json: bool = JsonOpt,
+):
+    """Each declared figure against the lab's analysed value under the market's compliance rule."""
+    from dataclasses import asdict
+
+    from .lab import load_lab
+    from .verify import verify
+
+    lib = _library(formula, library)
+    f = load_formula(formula, lib)
+    cert = load_lab(lab)
+    packs = get_packs(market.split(","), rules)
+    reports = []
+    for p in packs:
+        for c in compose(f, lib):
+            reports.append((c.scenario, verify(c, declare(c, p), cert, margin_percent=margin, force=force)))
+    if as_json:
+        typer.echo(json.dumps([{"scenario": s, **asdict(r)} for s, r in reports], indent=2, default=str))
+        return
+    from .textreport import num, table
+
+    c0 = cert.certificate
+    typer.echo(f"Certificate {c0.reference or '-'} from {c0.lab or '-'} ({c0.sample_date or 'no date'}; {c0.samples or 'sampling not stated'})")
+    for scen, r in reports:
+        typer.echo(f"\n{r.market} — {f.header.name}" + ("" if scen == "nominal" else f" — declaration at the {scen} end of the ranges"))
+        rows = [[x.label, x.basis.replace("_", " "), x.declared, num(x.analysed, 2),
+                 f"{num(x.allowed[0], 2) if x.allowed[0] is not None else '-'} .. {num(x.allowed[1], 2) if x.allowed[1] is not None else '-'}",
+                 x.verdict.upper() if x.verdict != "within" else "within", x.revised or "", x.rule] for x in r.rows]
+        typer.echo(table(["row", "basis", "declared", "analysed", "allowed", "verdict", "would declare", "rule"], rows, "llrrrlll"))
+        for x in r.rows:
+            if x.verdict != "within":
+                typer.echo(f"  {x.label}: {x.risk or ''} — {x.citation}" + (f"; {'; '.join(x.notes)}" if x.notes else ""))
+        if r.not_declared:
+            typer.echo("  reported by the lab, not on this label: " + ", ".join(r.not_declared))
+        typer.echo("  " + r.summary)
+    typer.echo("\nDRAFT: compliance rules as the packs state them; confirm with a qualified regulatory professional.")
+
+
+@app.command("calibrate")
+@friendly
+def calibrate_cmd(
+    formula: Path = typer.Argument(..., help="Formula file (YAML)."),
+    lab: Path = typer.Option(..., "--lab", help="Laboratory certificate with moisture (and fat for a fried product)."),
+    out: Path = typer.Option(Path("labelcalc-out/calibrated"), "--out", "-o", help="Folder for the updated formula files (originals are never changed)."),
+    force: bool = typer.Option(False, "--force", help="Use a certificate that names another product id."),
+    library: Optional[Path] = LibraryOpt,
+):
+    """Solve for the moisture loss and oil uptake that reproduce the lab's moisture and fat, and write an updated formula."""
+    from .calibrate import calibrate, write_calibrated
+    from .lab import load_lab
+
+    lib = _library(formula, library)
+    f = load_formula(formula, lib)
+    cal = calibrate(f, lib, load_lab(lab), force=force)
+    typer.echo(f"{f.header.name}: step '{cal.step}' in {cal.in_formula}")
+    rng = lambda r: f" (range {r[0]:.2f} to {r[1]:.2f} from the lab's uncertainty)" if r else ""
+    typer.echo(f"  water after the step: {cal.final_water:.2f} g/100 g" + rng(cal.water_range))
+    if cal.oil_per_100g is not None:
+        typer.echo(f"  oil uptake: {cal.oil_per_100g:.2f} g per 100 g after the step" + rng(cal.oil_range))
+    typer.echo(f"  reproduces: water {cal.reproduced['water']:.3f} g/100 g, total lipid {cal.reproduced['total_lipid']:.3f} g/100 g")
+    for n in cal.notes:
+        typer.echo(f"  note: {n}")
+    files = write_calibrated(f, cal, out)
+    for p in files:
+        typer.echo(f"wrote {p}")
+    typer.echo(f"Use it with: labelcalc compose {files[0]} --library {lib.files[0].rsplit('/', 1)[0] if lib.files else 'LIBRARY'}")
+
+
 @app.command("range")
 def range_cmd(
     source: Path = typer.Argument(..., help="Folder of formula files, or a .csv/.xlsx sheet (one row per batch line)."),

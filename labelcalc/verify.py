@@ -75,10 +75,13 @@ def _match(pack, nutrient: str, lab: LabFile, comp: Composition) -> tuple[Result
         comps = set(comps)
         if not comps or not comps & keys:
             continue
-        differ = {k for k in comps ^ keys if (comp.value(k) or 0) > 0}
-        if differ:
-            return None, None, (f"the lab's {r.analyte} ({'+'.join(sorted(comps))}) does not measure the declared {nutrient} "
-                                f"({'+'.join(sorted(keys))}) for this product: it differs by {', '.join(sorted(differ))}")
+        present = lambda ks: {k for k in ks if (comp.value(k) or 0) > 0}  # noqa: E731
+        if present(keys - comps):
+            continue  # the lab measured only part of the declared nutrient: not this result
+        extra = present(comps - keys)
+        if extra:
+            return None, None, (f"the lab's {r.analyte} also measures {', '.join(sorted(extra))}, which the declared "
+                                f"{nutrient} excludes for this product: not comparable — ask the lab for a specific method")
         return r, factor / afactor, None
     return None, None, None
 
