@@ -413,7 +413,8 @@ def _build(loaded: LoadedYaml, library: Library, index: FormulaIndex, stack: tup
                                          fix="a sub-formula may not use itself, directly or through others"))
             sub = load_formula(index.paths[ref], library, _stack=here, _cache=cache, _index=index)
             return None, sub
-        near = difflib.get_close_matches(ref, list(index.paths) + library.ids, n=3)
+        subs = [k for k, kind in index.kinds.items() if kind == "subformula"]
+        near = difflib.get_close_matches(ref, subs + library.ids, n=3)
         problems.add(f"unknown sub-formula '{ref}'" if want == "subformula" else f"unknown ingredient or sub-formula '{ref}'",
                      file=loaded.file, line=line, field=fld,
                      fix=(f"did you mean {', '.join(near)}?" if near else "check the id (sub-formulas are looked up in the formula's folder)"))

@@ -141,9 +141,8 @@ def verify(comp: Composition, decl: Declaration, lab: LabFile, *, margin_percent
         res, factor, note = _match(pack, r.nutrient, lab, comp)
         rule = _rule_for(pack, r.nutrient, comp)
         if res is None:
-            if note:
-                rows.append(RowVerdict(r.nutrient, r.label, r.unit, "-", "", None, None, (None, None), NOT_JUDGED, "",
-                                       "-", "-", [note]))
+            rows.append(RowVerdict(r.nutrient, r.label, r.unit, "-", "", None, None, (None, None), NOT_JUDGED, "",
+                                   "-", "-", [note or "not analysed on this certificate"]))
             continue
         used_results.add(res.analyte)
         if rule is None:
@@ -151,7 +150,8 @@ def verify(comp: Composition, decl: Declaration, lab: LabFile, *, margin_percent
                                    "-", "-", ["no compliance rule in the pack covers this row"]))
             continue
         basis = rule.basis if rule.basis in r.declared else ("per_100g" if "per_100g" in r.declared else next(iter(r.declared)))
-        scale = 1.0 if basis == "per_100g" else (decl.serving_g or 0) / 100
+        scale = {"per_100g": 1.0, "per_serving": (decl.serving_g or 0) / 100,
+                 "per_container": (decl.container_g or 0) / 100}[basis]
         analysed = res.value * factor * scale
         d = r.declared.get(basis)
         notes: list[str] = []
@@ -191,9 +191,12 @@ def verify(comp: Composition, decl: Declaration, lab: LabFile, *, margin_percent
             prow = next(x for x in pack.rows if x.nutrient == r.nutrient)
             rr = apply_rounding(analysed, pack.rounding[prow.rounding])
             revised = f"{rr.text} {r.unit}" if r.show_unit else rr.text
+            if revised == r.text(basis):
+                revised += " (rounds to the same figure: check the sampling, the method and the formula)"
         rows.append(RowVerdict(r.nutrient, r.label, r.unit, basis, r.text(basis), dv, analysed, (lo, hi), verdict, risk,
                                rule.id, rule.citation, notes + ([rule.note] if rule.note else []), revised))
     not_declared = [f"{x.analyte} {x.value:g} {x.unit}" for x in lab.results if x.analyte not in used_results]
+    unchecked = [x.label for x in rows if x.verdict == NOT_JUDGED]
     bad = [x for x in rows if x.verdict == OUTSIDE]
     close = [x for x in rows if x.verdict == CLOSE]
     if bad:
@@ -204,6 +207,8 @@ def verify(comp: Composition, decl: Declaration, lab: LabFile, *, margin_percent
             f"{x.label} (would be {x.revised})" for x in close) + "."
     else:
         summary = "The label stands: every analysed figure is within its compliance rule."
+    if unchecked:
+        summary += " Not checked (no comparable lab result): " + ", ".join(unchecked) + "."
     return VerifyReport(pack.market, f.id, rows, not_declared, summary)
 
 
