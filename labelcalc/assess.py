@@ -79,7 +79,7 @@ class _Context:
 
     def __init__(self, comp: Composition, pack: RulePack, decl: Declaration):
         self.comp, self.pack, self.decl = comp, pack, decl
-        self.values = nutrient_values(comp, pack, decl.declared_energy)
+        self.values = decl.values or nutrient_values(comp, pack, decl.declared_energy)
         self.energy_key = next((k for k, n in pack.nutrients.items() if n.energy == "kcal"), None)
         ref = decl.reference_amount
         self.ref_g = ref[1] if ref else None
@@ -126,11 +126,16 @@ def claim_key(name: str) -> str:
     return "_".join(name.lower().replace("-", " ").split())
 
 
-def _op(a: Decimal, op: str, b: Decimal) -> bool:
-    return {"<": a < b, "<=": a <= b, ">": a > b, ">=": a >= b}[op]
+def _op(a: float, op: str, b: float) -> bool:
+    """Compare a figure with a limit; exactly (in Decimal) when they are close enough for float noise to matter."""
+    if abs(a - b) > 1e-6 * max(1.0, abs(b)):
+        return {"<": a < b, "<=": a <= b, ">": a > b, ">=": a >= b}[op]
+    x, y = to_decimal(a), to_decimal(b)
+    return {"<": x < y, "<=": x <= y, ">": x > y, ">=": x >= y}[op]
 
 
-def _check(cond: Condition, ctx: _Context, ref_ctx: _Context | None) -> tuple[bool | None, Figure, str]:
+def _check(cond: Condition, ctx: _Context, ref_ctx: _Context | None, describe: bool = True
+           ) -> tuple[bool | None, Figure, str]:
     if cond.basis == "per_50g_if_small" and ctx.ref_g is not None and not ctx.small:
         return True, Figure(cond.quantity, "per_50g", None, ctx.unit(cond.quantity), None), "not applicable (reference amount above 30 g)"
     fig = ctx.figure(cond.quantity, cond.basis, cond.kcal_per_g)
@@ -153,7 +158,9 @@ def _check(cond: Condition, ctx: _Context, ref_ctx: _Context | None) -> tuple[bo
         else:
             value, unit = (fig.value - rf.value) / rf.value * 100, "%"
         fig = Figure(f"{cond.quantity} {cond.versus_reference.replace('_', ' ')}", fig.basis, value, unit)
-    ok = _op(to_decimal(value), cond.op, to_decimal(cond.value))
+    ok = _op(value, cond.op, cond.value)
+    if ok and not describe:
+        return ok, fig, ""
     desc = f"{fig.quantity} {fig.basis.replace('_', ' ')} = {_fmt(value)} {unit} (limit {cond.op} {format_number(to_decimal(cond.value))} {unit})"
     if not ok:
         desc += f", off by {_fmt(abs(value - cond.value))} {unit}"
@@ -171,7 +178,7 @@ def evaluate_claim(claim: Claim, ctx: _Context, ref_ctx: _Context | None, *, ref
         return ClaimVerdict(claim.id, claim.label, NOT_ELIGIBLE, [f"applies to {claim.applies_to} foods only"], [], [], [],
                             claim.citation, claim.confidence)
     for cond in claim.conditions:
-        ok, fig, desc = _check(cond, ctx, ref_ctx)
+        ok, fig, desc = _check(cond, ctx, ref_ctx, describe=False)
         figures.append(fig)
         if ok is None:
             missing.append(desc)
@@ -188,11 +195,12 @@ def evaluate_claim(claim: Claim, ctx: _Context, ref_ctx: _Context | None, *, ref
                 missing.append("an alternative cannot be tested: " + "; ".join(r[2] for g in group_results for r in g if r[0] is None))
             else:
                 failed.append("no alternative holds: " + " | ".join("; ".join(r[2] for r in g if not r[0]) for g in group_results))
-    used = [i for i in f.ingredients_used() if set(i.kinds) & set(claim.no_ingredient_kinds)]
+    used = [i for i in f.ingredients_used() if set(i.kinds) & set(claim.no_ingredient_kinds)] if claim.no_ingredient_kinds else []
     if used:
         notes.append(f"uses {', '.join(i.id for i in used)} ({'/'.join(claim.no_ingredient_kinds)}): allowed only as the "
                      "claim's rule permits (e.g. a footnote in the ingredient list) — review")
-    banned = [i for i in f.ingredients_used() if set(i.kinds) & set(claim.fails_with_ingredient_kinds)]
+    banned = ([i for i in f.ingredients_used() if set(i.kinds) & set(claim.fails_with_ingredient_kinds)]
+              if claim.fails_with_ingredient_kinds else [])
     if banned:
         failed.append(f"an ingredient of kind {'/'.join(claim.fails_with_ingredient_kinds)} is added: "
                       + ", ".join(i.id for i in banned))
@@ -610,7 +618,8 @@ def zero_row_reviews(decl: Declaration) -> list[str]:
     return out
 
 
-def assess(comp: Composition, pack: RulePack, decl: Declaration, reference: tuple[Composition, Declaration] | None = None) -> Assessment:
+def assess(comp: Composition, pack: RulePack, decl: Declaration, reference: tuple[Composition, Declaration] | None = None,
+           *, with_ingredient_list: bool = True) -> Assessment:
     ctx = _Context(comp, pack, decl)
     ref_ctx = _Context(reference[0], pack, reference[1]) if reference else None
     claims = []
@@ -631,7 +640,7 @@ def assess(comp: Composition, pack: RulePack, decl: Declaration, reference: tupl
             cv.texts = [t.text for t in cl.texts if not set(t.unless_eligible) & eligible]
     statements = [s for s in (evaluate_statement(st, ctx, claims) for st in pack.statements) if s]
     allergens = allergen_report(ctx)
-    ilist = ingredient_list(ctx, allergens)
+    ilist = ingredient_list(ctx, allergens) if with_ingredient_list else None
     fop = front_of_pack(ctx)
     reviews = zero_row_reviews(decl) + allergens.get("review", [])
     return Assessment(pack.market, decl, claims, statements, allergens, ilist, fop, reviews)

@@ -84,6 +84,7 @@ class Declaration:
     available_energy: EnergyResult
     notes: list[str]
     reviews: list[str]
+    values: dict = field(default_factory=dict, repr=False)  # unrounded per-100 g nutrient values (and unknown inputs)
 
     @property
     def shown_rows(self) -> list[DeclaredRow]:
@@ -94,6 +95,23 @@ class Declaration:
             if r.nutrient == nutrient:
                 return r
         raise KeyError(nutrient)
+
+
+class _LazyDecimals(dict):
+    """Unrounded figures of one column as Decimals, converted only when a rounding condition asks."""
+
+    def __init__(self, floats: dict[str, float | None]):
+        super().__init__()
+        self._floats = floats
+
+    def __missing__(self, key: str):
+        v = self._floats[key]
+        d = None if v is None else to_decimal(v)
+        self[key] = d
+        return d
+
+    def __contains__(self, key) -> bool:
+        return key in self._floats
 
 
 def nutrient_values(comp: Composition, pack: RulePack, energy: EnergyResult) -> dict[str, tuple[float | None, list[str]]]:
@@ -189,7 +207,7 @@ def declare(comp: Composition, pack: RulePack, *, rules_root: str | None = None)
     scale = {"per_100g": 1.0, "per_serving": (serving or 0) / 100.0, "per_container": (container or 0) / 100.0}
     values = nutrient_values(comp, pack, energy)
     col_vals = {b: {k: (None if v is None else v * scale[b]) for k, (v, _) in values.items()} for b in columns}
-    col_dec = {b: {k: (None if v is None else to_decimal(v)) for k, v in col_vals[b].items()} for b in columns}
+    col_dec = {b: _LazyDecimals(col_vals[b]) for b in columns}
     claims = ["_".join(c.lower().replace("-", " ").split()) for c in f.header.claims]
     kinds = {k for _, ln in f.walk() if ln.ingredient for k in ln.ingredient.kinds}
     rows: list[DeclaredRow] = []
@@ -223,7 +241,7 @@ def declare(comp: Composition, pack: RulePack, *, rules_root: str | None = None)
         notes.append(f"Declared energy ({energy.kcal:.0f} kcal/100 g under {fs.id}) differs from available energy "
                      f"({available.kcal:.0f} kcal/100 g): see the review notes.")
     return Declaration(pack.market, pack, comp, columns, serving, container, servings_text, single, dual, ref, rows,
-                       energy, available, notes, reviews)
+                       energy, available, notes, reviews, values)
 
 
 def _percents(row: Row, pack: RulePack, columns, col_vals, declared):

@@ -118,16 +118,17 @@ def run_chunk(items: list, library: Library, packs: list[RulePack], index: Formu
         res.errors += _error_row(fid, exc)
         res.products_failed += 1
     rhash = {p.market: rules_hash(p) for p in packs}
+    ihash: dict[str, str] = {i.id: ingredient_hash(i) for i in library.ingredients.values()}
     for f in formulas:
         if f.id not in comps:
             continue
-        ing_hashes = {i.id: ingredient_hash(i) for i in f.ingredients_used()}
+        ing_hashes = {i.id: ihash[i.id] for i in f.ingredients_used()}
         ok = True
         for p in packs:
             try:
                 for c in comps[f.id]:
                     d = declare(c, p)
-                    a = assess(c, p, d)
+                    a = assess(c, p, d, with_ingredient_list=False)
                     res.rows.append(summary_row(f, d, a))
                     res.labels.append(label_record(f, d, a, ing_hashes, rhash[p.market]))
             except LabelError as exc:

@@ -168,9 +168,11 @@ def apply_rounding(value: float | Decimal, rule: RoundingRule, others: dict[str,
 
 
 def _cond(c: Condition, others: dict[str, Decimal]) -> bool:
-    if c.nutrient not in others or others[c.nutrient] is None:
+    if c.nutrient not in others:
         return False
     v = others[c.nutrient]
+    if v is None:
+        return False
     if c.below is not None and not v < to_decimal(c.below):
         return False
     if c.up_to is not None and not v <= to_decimal(c.up_to):
