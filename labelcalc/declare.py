@@ -45,6 +45,7 @@ class DeclaredRow:
     source: list[str]
     unknown_inputs: list[str] = field(default_factory=list)
     value_per_100g: float | None = None
+    percent_only: bool = False
 
     unit_label: str | None = None
 
@@ -226,7 +227,7 @@ def declare(comp: Composition, pack: RulePack, *, rules_root: str | None = None)
         rows.append(DeclaredRow(row.nutrient, row.label, nd.unit, row.requirement, shown, why, row.indent, row.bold,
                                 row.show_unit, {b: col_vals[b][row.nutrient] for b in columns}, declared, percent,
                                 pct_raw, list(dict.fromkeys(src)), values[row.nutrient][1],
-                                values[row.nutrient][0], pack.panel.unit_labels.get(nd.unit)))
+                                values[row.nutrient][0], row.percent_only, pack.panel.unit_labels.get(nd.unit)))
     servings_text = _servings_text(comp, pack, serving, container, single)
     reviews = list(dict.fromkeys(energy.reviews))
     for r in rows:

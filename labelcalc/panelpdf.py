@@ -95,7 +95,7 @@ class PanelDrawing(Flowable):
         cols = d.columns
         show_pct = any(r.percent for r in d.shown_rows)
         for r in d.shown_rows:
-            if r.amount_in_label:
+            if r.amount_in_label or r.percent_only:
                 cells = ["" for _ in cols]
                 label = r.label_for(cols[0])
             else:
@@ -112,7 +112,10 @@ class PanelDrawing(Flowable):
         npct = max((len(p) for _, _, _, p in self.lines), default=0) if show_pct else 0
         value_w = 15 * mm if ncols > 1 else 18 * mm
         pct_w = 10 * mm
-        label_w = self.width_pt - ncols * value_w - npct * pct_w - 4
+        if self.lay.amount_after_label and ncols == 1:  # amounts follow the labels: no value column
+            value_w, pct_w = 0.0, 14 * mm
+        pad = 2.2 * mm if self.lay.style == "boxed" else 1.2 * mm
+        label_w = self.width_pt - 2 * pad - ncols * value_w - npct * pct_w
         return label_w, value_w, pct_w, npct
 
     def _label_lines(self, label, bold, width):
@@ -142,20 +145,23 @@ class PanelDrawing(Flowable):
         def rule(yy, weight):
             ops.append(("rule", yy, weight))
 
-        y += lay.title_size_pt * 1.1 + pad
-        text(pad, y, d.pack.panel.title, BOLD, lay.title_size_pt)
+        tsize = lay.title_size_pt
+        while tsize > 6 and pdfmetrics.stringWidth(d.pack.panel.title, BOLD, tsize) > W - 2 * pad:
+            tsize -= 0.5  # the title always fits the panel width
+        y += tsize * 1.1 + pad
+        text(pad, y, d.pack.panel.title, BOLD, tsize)
         if lay.style == "boxed":
             y += 1.5
             rule(y, 0.6)
         if lay.serving_lines_on_top or lay.style == "boxed":
             if d.servings_text:
                 y += lh
-                text(pad, y, f"{d.servings_text} servings per container")
+                text(pad, y, lay.servings_text.format(n=d.servings_text))
             if d.serving_g:
                 y += lh * 1.1
                 hh = d.composition.formula.header.serving.household if d.composition.formula.header.serving else None
                 s_txt = f"{hh} ({d.serving_g:g}g)" if hh else f"{d.serving_g:g} g"
-                text(pad, y, "Serving size", BOLD, size * 1.15)
+                text(pad, y, lay.serving_text, BOLD, size * 1.15)
                 text(W - pad, y, s_txt, BOLD, size * 1.15, "right")
             y += 2.5
             rule(y, 4 if lay.style == "boxed" else 1)
@@ -188,6 +194,11 @@ class PanelDrawing(Flowable):
             for k, part in enumerate(lab_lines):
                 yy = y - row_h + (k + 1) * lh * (1.6 if big else 1.0) - (lh * 0.25 if big else 0)
                 text(indent, yy, part, BOLD if (r.bold or big) else FONT, sz)
+            if lay.amount_after_label and len(cells) == 1 and cells[0] and not big:
+                amount = "".join(cells[0].rsplit(" ", 1)) if lay.compact_units and " " in cells[0] else cells[0]
+                lw = pdfmetrics.stringWidth(lab_lines[-1], BOLD if r.bold else FONT, sz)
+                text(indent + lw + 0.8 * mm, y - row_h + len(lab_lines) * lh, amount, FONT, sz)
+                cells = []
             for i, cell in enumerate(cells):
                 text(x0 + (i + 1) * value_w - 1, y - (lh * 0.25 if big else 0), cell, BOLD if big else FONT, sz, "right")
             for i, p in enumerate(pct):
@@ -275,7 +286,7 @@ def ingredient_paragraph(a: Assessment, st) -> Paragraph | None:
     return Paragraph(f"<b>{_esc(il['heading'])}</b> " + render(il["items"]) + ".", st["base"])
 
 
-def build_story(a: Assessment, checks: list[Check], date: str, st) -> list:
+def build_story(a: Assessment, checks: list[Check], date: str, st, *, calculation: bool = True) -> list:
     d = a.declaration
     f = d.composition.formula
     story: list = []
@@ -322,15 +333,22 @@ def build_story(a: Assessment, checks: list[Check], date: str, st) -> list:
     else:
         story.append(Paragraph("none", st["base"]))
     story.append(Paragraph("Pre-flight checks", st["h2"]))
-    story.append(_table([["check", "result", "detail"]] + [[c.name, "ok" if c.ok else "FAILED", c.detail] for c in checks],
-                        st, [55 * mm, 14 * mm, 105 * mm]))
+    if calculation:
+        story.append(_table([["check", "result", "detail"]] + [[c.name, "ok" if c.ok else "FAILED", c.detail] for c in checks],
+                            st, [55 * mm, 14 * mm, 105 * mm]))
+    else:
+        bad = [c for c in checks if not c.ok]
+        story.append(Paragraph(_esc(f"{len(checks) - len(bad)} of {len(checks)} checks passed"
+                                    + ("; FAILED: " + "; ".join(f"{c.name}: {c.detail}" for c in bad) if bad else "")
+                                    + " (details in the calculation sheet CSV)"), st["warn"] if bad else st["small"]))
     notes = d.notes + d.reviews + a.reviews
     if notes:
         story.append(Paragraph("Notes for review", st["h2"]))
         for n in notes:
             story.append(Paragraph(_esc("· " + n.strip()), st["small"]))
-    story.append(PageBreak())
-    story += calculation_story(a, st)
+    if calculation:
+        story.append(PageBreak())
+        story += calculation_story(a, st)
     return story
 
 
@@ -399,7 +417,7 @@ def calculation_story(a: Assessment, st) -> list:
     return story
 
 
-def write_panel_pdf(items: list[tuple[Assessment, list[Check]]], path: Path, date: str) -> Path:
+def write_panel_pdf(items: list[tuple[Assessment, list[Check]]], path: Path, date: str, *, calculation: bool = True) -> Path:
     """Write one product-and-market PDF (one part per scenario) atomically; identical inputs give identical bytes."""
     st = _styles()
     rl_config.invariant = 1
@@ -416,7 +434,7 @@ def write_panel_pdf(items: list[tuple[Assessment, list[Check]]], path: Path, dat
         for i, (ai, checks) in enumerate(items):
             if i:
                 story.append(PageBreak())
-            story += build_story(ai, checks, date, st)
+            story += build_story(ai, checks, date, st, calculation=calculation)
         doc.build(story, onFirstPage=_footer(date, label), onLaterPages=_footer(date, label))
         os.replace(tmp, path)
     finally:

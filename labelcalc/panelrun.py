@@ -20,7 +20,7 @@ from .safenames import inside, safe_name
 
 
 def panels_for(formula_path: Path, library: Library, packs: list[RulePack], out: Path, date: str,
-               reference=None) -> tuple[list[Path], list[str]]:
+               reference=None, *, calculation_pages: bool = True) -> tuple[list[Path], list[str]]:
     """Write `<id>.<market>.pdf` and `<id>.<market>.calculation.csv` for every market.
 
     Returns the files and the failed pre-flight checks (as text)."""
@@ -41,17 +41,21 @@ def panels_for(formula_path: Path, library: Library, packs: list[RulePack], out:
             checks = run_checks(a)
             failures += [f"{f.id} [{p.market}, {c.scenario}] {x.name}: {x.detail}" for x in checks if not x.ok]
             items.append((a, checks))
-        pdf = write_panel_pdf(items, inside(out, f"{stem}.{p.market}.pdf"), date)
+        pdf = write_panel_pdf(items, inside(out, f"{stem}.{p.market}.pdf"), date, calculation=calculation_pages)
         csvp = write_calculation_csv([a for a, _ in items], inside(out, f"{stem}.{p.market}.calculation.csv"))
         files += [pdf, csvp]
     return files, failures
 
 
+_LIBS: dict[str, Library] = {}
+
+
 def _one(args):
     path, lib_path, markets, rules, out, date = args
-    lib = load_library(lib_path)
+    lib = _LIBS.get(lib_path) or _LIBS.setdefault(lib_path, load_library(lib_path))
     try:
-        return panels_for(Path(path), lib, get_packs(markets, rules), Path(out), date)
+        # range runs: panel pages in the PDF, the calculation sheet as CSV (labelcalc panel adds its PDF pages)
+        return panels_for(Path(path), lib, get_packs(markets, rules), Path(out), date, calculation_pages=False)
     except LabelError as exc:
         return [], [f"{path}: {exc}"]
 

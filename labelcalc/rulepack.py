@@ -123,6 +123,7 @@ class Row(Strict):
     bold: bool = False
     italic_words: list[str] = Field(default_factory=list, description="words of the label printed in italics (e.g. 'Trans')")
     show_unit: bool = True
+    percent_only: bool = Field(False, description="the row prints only its percentage (e.g. Canada's 'Saturated + Trans')")
     citation: str = Field(min_length=3)
     confidence: Confidence
 
@@ -144,6 +145,10 @@ class PanelLayout(Strict):
     serving_lines_on_top: bool = Field(False, description="servings per container and serving size above the rows")
     column_headers: dict[str, str] = Field(default_factory=dict, description="basis -> header text")
     header_note: str | None = Field(None, description="a line under the title, e.g. 'Amount per serving'")
+    amount_after_label: bool = Field(False, description="print the amount right after the row label (one-column facts boxes)")
+    compact_units: bool = Field(False, description="print '8g' rather than '8 g' after the label")
+    servings_text: str = Field("{n} servings per container", description="wording of the servings line ({n})")
+    serving_text: str = Field("Serving size", description="label of the serving size line")
     citation: str | None = None
 
 

@@ -102,7 +102,7 @@ def declare_text(decls: list[Declaration]) -> str:
             headers += [f"{pct_label} ({BASIS_LABEL[b]})" for b in d.columns if b == (p.panel.percent_basis or b)]
         rows = []
         for r in d.shown_rows:
-            if r.amount_in_label:
+            if r.amount_in_label or r.percent_only:
                 cells = ["  " * r.indent + r.label_for(d.columns[0])] + ["" for b in d.columns]
             else:
                 cells = ["  " * r.indent + r.label] + [r.text(b) for b in d.columns]
