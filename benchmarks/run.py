@@ -17,7 +17,6 @@ from __future__ import annotations
 
 import json
 import platform
-import resource
 import subprocess
 import sys
 import time

@@ -17,7 +17,7 @@ import yaml
 
 from .composition import compose
 from .errors import InputError, LabelError, Problem
-from .formula import Formula, ProcessStep
+from .formula import Formula, ProcessStep, map_tree
 from .lab import LabFile
 from .library import Library
 
@@ -52,33 +52,17 @@ def _find_step(f: Formula) -> tuple[Formula, int] | None:
 
 
 def _with_params(f: Formula, target: Formula, j: int, water: float, oil: float | None) -> Formula:
-    memo: dict[int, Formula] = {}
+    """The tree with step j of ``target`` set to a final water content and an oil uptake per 100 g."""
 
-    def walk(g: Formula) -> Formula:
-        if id(g) in memo:
-            return memo[id(g)]
-        h = copy.copy(g)
-        h.__dict__.pop("_ingredients_used", None)
-        h.lines = [copy.copy(ln) for ln in g.lines]
-        for ln in h.lines:
-            if ln.formula is not None:
-                ln.formula = walk(ln.formula)
-        h.steps = [copy.copy(st) for st in g.steps]
-        for st in h.steps:
-            if st.oil_formula is not None:
-                st.oil_formula = walk(st.oil_formula)
-        if g is target:
-            st: ProcessStep = h.steps[j]
+    def on_step(g: Formula, k: int, st: ProcessStep) -> None:
+        if g is target and k == j:
             st.loss_percent = st.yield_factor = st.finished_weight_g = None
             st.final_water = (water, water)
             if oil is not None:
                 st.oil_final_fat = None
                 st.oil_per_100g = (oil, oil)
-        h.content_hash = f"{g.content_hash}~{water:.6f}~{oil}"
-        memo[id(g)] = h
-        return h
 
-    return walk(f)
+    return map_tree(f, f"calibrate~{water:.9f}~{oil}", on_step=on_step)
 
 
 def _measure(f: Formula, lib: Library) -> tuple[float, float]:
@@ -133,7 +117,6 @@ def calibrate(f: Formula, lib: Library, lab: LabFile, *, force: bool = False) ->
     fried = st.oil_ref is not None
     if fried and fat is None:
         raise InputError(Problem("the certificate has no fat result; a fried product needs moisture and fat"))
-    comp0 = compose(f, lib)[0]
     oil_comp = None
     if fried:
         # upper bound: the product cannot hold more lipid than the oil itself

@@ -262,7 +262,6 @@ def compose_many(formulas: list[Formula], library: Library, table: CompositionTa
     every = _all_formulas(formulas)
     results: dict[str, list[Composition]] = {}
     failed: dict[str, InputError] = {}
-    by_key: dict[str, Composition] = {}
     levels = sorted({d for _, d in every.values()})
     done: dict[str, tuple[np.ndarray, np.ndarray, list]] = {}
     for level in levels:
@@ -278,7 +277,6 @@ def compose_many(formulas: list[Formula], library: Library, table: CompositionTa
         if not ok:
             continue
         out = _compose_level(ok, table)
-        lows, highs = [], []
         for f, res in zip(ok, out):
             if isinstance(res, InputError):
                 failed[_fkey(f)] = res

@@ -10,9 +10,7 @@ rows are shown.  Nothing here knows a market by name.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from decimal import Decimal
 
-from . import components as C
 from .composition import Composition
 from .energy import EnergyResult, energy_of, load_factor_set
 from .errors import InputError, Problem, RuleError

@@ -8,17 +8,18 @@ the full format and ``labelcalc schema`` for its JSON Schema.
 
 from __future__ import annotations
 
+import copy
 import difflib
 import hashlib
 import json
 import re
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Literal, Union
+from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
 
-from .errors import InputError, Problem, ProblemList, display_path
+from .errors import InputError, Problem, ProblemList
 from .library import Ingredient, Library
 from .quantities import Quantity, parse_quantity
 from .yamlsafe import LoadedYaml, load_yaml, pydantic_problems
@@ -291,6 +292,40 @@ class Formula:
             if ln.formula:
                 for path, sub in ln.formula.walk():
                     yield (self.id,) + path, sub
+
+
+def map_tree(f: Formula, tag: str, *, on_line=None, on_step=None) -> Formula:
+    """A copy of a formula tree with edits: ``on_line(line)`` and ``on_step(formula, index, step)``
+    may change the copies (the originals are untouched).  Content hashes are re-derived with
+    ``tag`` so an edited tree never passes for the original."""
+    memo: dict[int, Formula] = {}
+
+    def walk(g: Formula) -> Formula:
+        if id(g) in memo:
+            return memo[id(g)]
+        h = copy.copy(g)
+        h.__dict__.pop("_ingredients_used", None)
+        h.lines = []
+        for ln in g.lines:
+            ln2 = copy.copy(ln)
+            if ln.formula is not None:
+                ln2.formula = walk(ln.formula)
+            if on_line:
+                on_line(ln2)
+            h.lines.append(ln2)
+        h.steps = []
+        for j, st in enumerate(g.steps):
+            st2 = copy.copy(st)
+            if st.oil_formula is not None:
+                st2.oil_formula = walk(st.oil_formula)
+            if on_step:
+                on_step(g, j, st2)
+            h.steps.append(st2)
+        h.content_hash = hashlib.sha256(f"{g.content_hash}|{tag}".encode()).hexdigest()[:16]
+        memo[id(g)] = h
+        return h
+
+    return walk(f)
 
 
 # --------------------------------------------------------------------- loading

@@ -20,7 +20,7 @@ from reportlab.lib.styles import ParagraphStyle
 from reportlab.lib.units import mm
 from reportlab.pdfbase import pdfmetrics
 from reportlab.pdfbase.ttfonts import TTFont
-from reportlab.platypus import (Flowable, KeepTogether, PageBreak, Paragraph, SimpleDocTemplate, Spacer, Table,
+from reportlab.platypus import (Flowable, PageBreak, Paragraph, SimpleDocTemplate, Spacer, Table,
                                 TableStyle)
 from reportlab.lib.utils import simpleSplit
 
@@ -89,7 +89,7 @@ class PanelDrawing(Flowable):
         self.lines = self._build()
 
     def _build(self):
-        d, lay = self.d, self.lay
+        d = self.d
         rows = []
         pct_basis = d.pack.panel.percent_basis
         cols = d.columns

@@ -11,14 +11,13 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
-from decimal import Decimal
 
 import numpy as np
 
 from .assess import Assessment, ELIGIBLE, _Context, evaluate_claim
 from .composition import COL
-from .declare import Declaration, nutrient_values
-from .energy import ENERGY_GROUPS, _energy_vectors
+from .declare import Declaration
+from .energy import _energy_vectors
 
 
 @dataclass

@@ -9,7 +9,6 @@ engine as ``declare`` and ``assess``.
 
 from __future__ import annotations
 
-import copy
 import hashlib
 from dataclasses import dataclass, field
 
@@ -18,7 +17,7 @@ from .composition import compose
 from .costing import cost_of
 from .declare import declare
 from .errors import InputError, Problem
-from .formula import Formula, Header, Line
+from .formula import Formula, Header, Line, map_tree
 from .library import Library
 from .quantities import Quantity
 from .rulepack import RulePack
@@ -47,34 +46,16 @@ def substitute(f: Formula, old_id: str, new_id: str, share: float, library: Libr
         raise InputError(Problem(f"'{old_id}' is not used in {f.id} (directly, in a sub-formula or as frying oil)",
                                  file=f.file, field="--replace"))
     blend = _blend(old, new, share, library)
-    memo: dict[int, Formula] = {}
 
-    def walk(g: Formula) -> Formula:
-        if id(g) in memo:
-            return memo[id(g)]
-        h = copy.copy(g)
-        h.__dict__.pop("_ingredients_used", None)
-        h.lines = []
-        for ln in g.lines:
-            ln2 = copy.copy(ln)
-            if ln.ingredient is not None and ln.ingredient.id == old_id:
-                ln2.ingredient, ln2.formula = None, blend
-            elif ln.formula is not None:
-                ln2.formula = walk(ln.formula)
-            h.lines.append(ln2)
-        h.steps = []
-        for st in g.steps:
-            st2 = copy.copy(st)
-            if st.oil_ingredient is not None and st.oil_ingredient.id == old_id:
-                st2.oil_ingredient, st2.oil_formula = None, blend
-            elif st.oil_formula is not None:
-                st2.oil_formula = walk(st.oil_formula)
-            h.steps.append(st2)
-        h.content_hash = hashlib.sha256(f"{g.content_hash}|{blend.content_hash}".encode()).hexdigest()[:16]
-        memo[id(g)] = h
-        return h
+    def on_line(ln: Line) -> None:
+        if ln.ingredient is not None and ln.ingredient.id == old_id:
+            ln.ingredient, ln.formula = None, blend
 
-    return walk(f)
+    def on_step(_g, _j, st) -> None:
+        if st.oil_ingredient is not None and st.oil_ingredient.id == old_id:
+            st.oil_ingredient, st.oil_formula = None, blend
+
+    return map_tree(f, blend.content_hash, on_line=on_line, on_step=on_step)
 
 
 @dataclass

@@ -16,7 +16,6 @@ the formula = per 100 g of the ingredient; energy by Reg. (EU) No 1169/2011 Anne
 
 from __future__ import annotations
 
-import shutil
 import textwrap
 from pathlib import Path
 

@@ -7,7 +7,6 @@ import shutil
 import textwrap
 from pathlib import Path
 
-import pytest
 from typer.testing import CliRunner
 
 from labelcalc.cli import app

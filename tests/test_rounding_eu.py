@@ -1,4 +1,7 @@
-"""EU pack (rules/markets/eu_1169_2011.yaml): rounding, reference values, worked example.
+"""EU and UK packs (rules/markets/eu_1169_2011.yaml, uk_retained_1169_2011.yaml): rounding,
+reference values, worked example.  Every test runs on both packs: Great Britain applies
+Regulation (EU) No 1169/2011 as retained in UK law; tests/test_rounding_uk.py holds what is
+UK-only and the check that the two packs have not diverged.
 
 Rounding cases come from the European Commission's "Guidance document for competent
 authorities ... with regard to the setting of tolerances for nutrient values declared on
@@ -19,13 +22,12 @@ from labelcalc.energy import load_factor_set
 from labelcalc.rounding import apply_rounding
 from labelcalc.rulepack import load_packs
 
-MARKET = "eu"
-FACTOR_SET = "eu_1169_2011_annex_xiv"
+FACTOR_SETS = {"eu": "eu_1169_2011_annex_xiv", "uk": "uk_retained_1169_2011_annex_xiv"}
 
 
-@pytest.fixture(scope="module")
-def pack():
-    return load_packs()[MARKET]
+@pytest.fixture(scope="module", params=sorted(FACTOR_SETS))
+def pack(request):
+    return load_packs()[request.param]
 
 
 def rounded(pack, rule, value):
@@ -221,7 +223,7 @@ def test_bases_and_servings(pack):
     assert pack.panel.title == "Nutrition declaration"
     assert pack.servings.required is False
     assert pack.servings.reference_amounts == {}
-    assert pack.panel.energy_factor_set == FACTOR_SET
+    assert pack.panel.energy_factor_set == FACTOR_SETS[pack.market]
 
 
 # --- Worked example (computed by hand) ------------------------------------------------------
@@ -233,8 +235,9 @@ def test_bases_and_servings(pack):
 WORKED = {"fat": 10, "sugars": 20, "starch": 40, "protein": 8, "fibre_soluble": 1, "fibre_insoluble": 2}
 
 
-def test_worked_example_energy():
-    fs = load_factor_set(FACTOR_SET)
+@pytest.mark.parametrize("factor_set", sorted(FACTOR_SETS.values()))
+def test_worked_example_energy(factor_set):
+    fs = load_factor_set(factor_set)
     kj = sum(Decimal(str(g)) * Decimal(str(fs.factor_for(c).kj)) for c, g in WORKED.items())
     kcal = sum(Decimal(str(g)) * Decimal(str(fs.factor_for(c).kcal)) for c, g in WORKED.items())
     assert kj == 1550
