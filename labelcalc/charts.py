@@ -37,8 +37,9 @@ def sweep_chart(rows, firsts: dict[str, float], title: str, old: str, new: str, 
     ymin, ymax = ax.get_ylim()
     for j, (key, x) in enumerate(sorted(firsts.items(), key=lambda kv: kv[1])):
         ax.axvline(x, color="#999999", linewidth=0.8, linestyle=":")
-        ax.text(x, ymax - (ymax - ymin) * (0.04 + 0.055 * (j % 8)), f" {key} from {x:g} %", fontsize=6.5,
-                color="#333333", va="top")
+        right = x > 0.6 * max(xx for xx, _ in next(iter(series.values())))
+        ax.text(x, ymax - (ymax - ymin) * (0.04 + 0.055 * (j % 8)), (f"{key} from {x:g} % " if right else f" {key} from {x:g} %"),
+                fontsize=6.5, color="#333333", va="top", ha="right" if right else "left")
     ax.set_xlabel(f"share of {old} replaced by {new} [%]")
     ax.set_ylabel("energy per serving [kcal]")
     ax.set_title(title, fontsize=10, loc="left")

@@ -161,8 +161,12 @@ class PanelDrawing(Flowable):
                 y += lh * 1.1
                 hh = d.composition.formula.header.serving.household if d.composition.formula.header.serving else None
                 s_txt = f"{hh} ({d.serving_g:g}g)" if hh else f"{d.serving_g:g} g"
-                text(pad, y, lay.serving_text, BOLD, size * 1.15)
-                text(W - pad, y, s_txt, BOLD, size * 1.15, "right")
+                ssize = size * 1.15
+                while ssize > 5 and (pdfmetrics.stringWidth(lay.serving_text, BOLD, ssize)
+                                     + pdfmetrics.stringWidth(s_txt, BOLD, ssize) + 2 * mm > W - 2 * pad):
+                    ssize -= 0.25  # label and size share the line without touching
+                text(pad, y, lay.serving_text, BOLD, ssize)
+                text(W - pad, y, s_txt, BOLD, ssize, "right")
             y += 2.5
             rule(y, 4 if lay.style == "boxed" else 1)
         if lay.header_note:
