@@ -168,12 +168,22 @@ def energy_method(f, pack: RulePack) -> str:
     return chosen
 
 
-def declare(comp: Composition, pack: RulePack, *, rules_root: str | None = None) -> Declaration:
-    """Declared values of one composition under one market's pack."""
+@dataclass
+class ServingPlan:
+    """How a market's serving rules apply to one product: serving, columns, single serving, dual column."""
+
+    serving: float | None
+    container: float | None
+    ref: tuple[str, float, str] | None
+    single: bool
+    dual: bool
+    columns: list[str]
+    notes: list[str]
+
+
+def serving_plan(comp: Composition, pack: RulePack) -> ServingPlan:
+    """The serving basis of ``comp`` under ``pack`` (raises InputError when the market cannot label it)."""
     f = comp.formula
-    fs = load_factor_set(energy_method(f, pack), rules_root)
-    energy = energy_of(comp, fs)
-    available = energy_of(comp, load_factor_set("available", rules_root))
     notes: list[str] = []
     s = pack.servings
     serving = f.serving_grams()
@@ -203,6 +213,19 @@ def declare(comp: Composition, pack: RulePack, *, rules_root: str | None = None)
     if not columns:
         raise InputError(Problem(f"market '{pack.market}': no column can be printed (no serving size and no per 100 g basis)",
                                  file=f.file, field="product.serving"))
+    return ServingPlan(serving, container, ref, single, dual, columns, notes)
+
+
+def declare(comp: Composition, pack: RulePack, *, rules_root: str | None = None) -> Declaration:
+    """Declared values of one composition under one market's pack."""
+    f = comp.formula
+    fs = load_factor_set(energy_method(f, pack), rules_root)
+    energy = energy_of(comp, fs)
+    available = energy_of(comp, load_factor_set("available", rules_root))
+    plan = serving_plan(comp, pack)
+    serving, container, ref, single, dual, columns = (plan.serving, plan.container, plan.ref, plan.single, plan.dual,
+                                                      plan.columns)
+    notes: list[str] = list(plan.notes)
     scale = {"per_100g": 1.0, "per_serving": (serving or 0) / 100.0, "per_container": (container or 0) / 100.0}
     values = nutrient_values(comp, pack, energy)
     col_vals = {b: {k: (None if v is None else v * scale[b]) for k, (v, _) in values.items()} for b in columns}

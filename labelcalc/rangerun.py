@@ -15,9 +15,9 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from . import __version__
-from .assess import ELIGIBLE, assess
+from .assess import ELIGIBLE
+from .batch import BatchLabels
 from .composition import compose_many
-from .declare import declare
 from .errors import InputError, LabelError, Problem, display_path
 from .formula import Formula, FormulaIndex, build_formula, load_formula
 from .library import Library, load_library
@@ -119,25 +119,27 @@ def run_chunk(items: list, library: Library, packs: list[RulePack], index: Formu
         res.products_failed += 1
     rhash = {p.market: rules_hash(p) for p in packs}
     ihash: dict[str, str] = {i.id: ingredient_hash(i) for i in library.ingredients.values()}
+    labelled = [c for f in formulas if f.id in comps for c in comps[f.id]]
+    failed_ids: set[str] = set()
+    for p in packs:
+        batch = BatchLabels(p, labelled)
+        for c, exc in batch.errors:
+            if (c.formula.id, p.market) not in failed_ids:
+                res.errors += _error_row(c.formula.id, exc, p.market)
+            failed_ids.add((c.formula.id, p.market))
+        for c, row, declared, statements, allergens, claims in batch.results():
+            f = c.formula
+            res.rows.append(row)
+            res.labels.append(LabelRecord(f.id, p.market, c.scenario, f.content_hash,
+                                          {i.id: ihash[i.id] for i in f.ingredients_used()}, rhash[p.market], declared,
+                                          statements, allergens, claims, f.file))
+    bad = {pid for pid, _ in failed_ids}
     for f in formulas:
-        if f.id not in comps:
-            continue
-        ing_hashes = {i.id: ihash[i.id] for i in f.ingredients_used()}
-        ok = True
-        for p in packs:
-            try:
-                for c in comps[f.id]:
-                    d = declare(c, p)
-                    a = assess(c, p, d, with_ingredient_list=False)
-                    res.rows.append(summary_row(f, d, a))
-                    res.labels.append(label_record(f, d, a, ing_hashes, rhash[p.market]))
-            except LabelError as exc:
-                res.errors += _error_row(f.id, exc, p.market)
-                ok = False
-        if ok:
-            res.products_ok += 1
-        else:
-            res.products_failed += 1
+        if f.id in comps:
+            if f.id in bad:
+                res.products_failed += 1
+            else:
+                res.products_ok += 1
     return res
 
 

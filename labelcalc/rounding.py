@@ -149,7 +149,7 @@ def apply_rounding(value: float | Decimal, rule: RoundingRule, others: dict[str,
     ('5', '0', '6')
     """
     v = to_decimal(value)
-    others = others or {}
+    others = {} if others is None else others
     for i, b in enumerate(rule.bands):
         if not b.holds(v) or not all(_cond(c, others) for c in b.only_if):
             continue
