@@ -101,3 +101,27 @@ def test_json_schema_fields(write, lib):
                 "percent_reference", "source"):
         assert key in row
     assert row["declared_per_serving"] == "3.5 g" and row["percent_reference"] == "4%"
+
+
+def test_only_if_bands_see_the_other_figures(write, lib_dir):
+    """Regression: a rounding band with 'only_if' conditions must see the other unrounded figures of its column.
+    Canada's pack declares saturated fat "0 g" below 0.5 g only when the 'free of saturated fatty acids'
+    conditions hold (FDR table to B.01.401, item 4, column 4: < 0.2 g saturated and < 0.2 g trans)."""
+    from labelcalc.library import load_library
+    from labelcalc.rulepack import load_packs
+
+    (lib_dir / "sat.yaml").write_text(
+        "ingredients:\n  lowsat:\n    label_name: L\n    source: test\n    unlisted: zero\n"
+        "    per_100g: {water: 10, starch: 80, fat: 5, saturated_fa: 0.5}\n"
+        "  midsat:\n    label_name: M\n    source: test\n    unlisted: zero\n"
+        "    per_100g: {water: 10, starch: 80, fat: 5, saturated_fa: 1.5}\n", encoding="utf-8")
+    lib = load_library(lib_dir)
+    ca = load_packs()["ca"]
+    texts = {}
+    for ing in ("lowsat", "midsat"):
+        p = write(f"{ing}.yaml", f"product: {{id: {ing}_p, name: P, category: crackers_snack, serving: {{size: 20 g}}}}\n"
+                                 f"batch: [{{ingredient: {ing}, amount: 100 g}}]\n")
+        (c,) = compose(load_formula(p, lib), lib)
+        texts[ing] = declare(c, ca).row("saturated_fat").text("per_serving")
+    assert texts["lowsat"] == "0 g"      # 0.1 g per serving: free-of conditions hold
+    assert texts["midsat"] == "0.3 g"    # 0.3 g per serving: below 0.5 g but not 'free of' -> nearest 0.1 g
