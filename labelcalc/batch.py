@@ -257,12 +257,13 @@ class BatchLabels:
             self.val[key] = np.where(unk, np.nan, tot)
 
     def column_values(self, key: str, basis: str) -> np.ndarray:
-        v = self.val[key]
-        if basis == "per_100g":
-            return v
-        if basis == "per_serving":
-            return v * self.serving / 100
-        return v * self.container / 100
+        cache = self.__dict__.setdefault("_colv", {})
+        got = cache.get((key, basis))
+        if got is None:
+            v = self.val[key]
+            got = v if basis == "per_100g" else v * (self.serving if basis == "per_serving" else self.container) / 100
+            cache[(key, basis)] = got
+        return got
 
     # --------------------------------------------------------------- declare
     def declare(self):
@@ -299,16 +300,10 @@ class BatchLabels:
             base_q = np.where((mode == "declared") & (ra.number != NONE), ra.number, q_of(vals))
             p = base_q / Q / ref.amount * 100
             pr = round_array(p, rule)
-            texts = []
-            for i in range(self.n):
-                if np.isnan(vals[i]):
-                    texts.append(None)
-                elif mode == "declared" and ra.number[i] == 0:
-                    texts.append("0%")
-                else:
-                    t = pr.texts[i]
-                    texts.append(t if t.endswith("%") else t + "%")
-            out[b] = texts
+            zero = (ra.number == 0) if mode == "declared" else np.zeros(self.n, dtype=bool)
+            unknown = np.isnan(vals)
+            out[b] = [None if u else "0%" if z else (t if t.endswith("%") else t + "%")
+                      for t, u, z in zip(pr.texts, unknown, zero)]
         return out
 
     def _shown(self, row) -> np.ndarray:
@@ -608,14 +603,22 @@ class BatchLabels:
         return count
 
     # ----------------------------------------------------------------- output
+    def texts(self, nutrient: str, basis: str) -> list[str]:
+        """Printed figures (with units) of one row and column for every product."""
+        cache = self.__dict__.setdefault("_texts", {})
+        got = cache.get((nutrient, basis))
+        if got is None:
+            unknown = np.isnan(self.column_values(nutrient, basis))
+            nd = self.pack.nutrients[nutrient]
+            unit = self.pack.panel.unit_labels.get(nd.unit) or display_unit(nd.unit)
+            show = self._row(nutrient).show_unit
+            got = ["unknown" if u else (f"{t} {unit}" if show else t)
+                   for t, u in zip(self.rows[nutrient][basis].texts, unknown)]
+            cache[(nutrient, basis)] = got
+        return got
+
     def text(self, nutrient: str, basis: str, i: int) -> str:
-        if np.isnan(self.column_values(nutrient, basis)[i]):
-            return "unknown"
-        t = self.rows[nutrient][basis].texts[i]
-        nd = self.pack.nutrients[nutrient]
-        row = self._row(nutrient)
-        unit = self.pack.panel.unit_labels.get(nd.unit) or display_unit(nd.unit)
-        return f"{t} {unit}" if row.show_unit else t
+        return self.texts(nutrient, basis)[i]
 
     def _row(self, nutrient):
         if not hasattr(self, "_rows_by"):

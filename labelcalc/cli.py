@@ -532,7 +532,7 @@ def range_cmd(
         get_packs(markets, rules)
         progress, stop = _progress(quiet)
         try:
-            result = run_range(source, lib_path, markets, rules, jobs=jobs, progress=progress)
+            result = run_range(source, lib_path, markets, rules, jobs=jobs, progress=progress, with_labels=not no_register)
         finally:
             stop()
         changes = None

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import copy
 import difflib
+import os
 import hashlib
 import json
 import re
@@ -90,7 +91,6 @@ class BatchLine(Strict):
     def _one_ref(self):
         if (self.ingredient is None) == (self.subformula is None):
             raise ValueError("each batch line names exactly one of 'ingredient' or 'subformula'")
-        parse_quantity(self.amount)
         return self
 
     @property
@@ -337,14 +337,22 @@ class FormulaIndex:
     def __init__(self, folders: list[Path]):
         self.paths: dict[str, Path] = {}
         self.kinds: dict[str, str] = {}
+        self.products: list[Path] = []  # product files, in path order
+        self.duplicates: list[tuple[str, Path, Path]] = []  # (id, kept file, other file)
         for folder in folders:
             for f in sorted(folder.rglob("*.y*ml")):
                 if f.suffix not in (".yaml", ".yml"):
                     continue
                 ident = _peek_id(f)
-                if ident and ident[1] not in self.paths:
-                    self.paths[ident[1]] = f
-                    self.kinds[ident[1]] = ident[0]
+                if not ident:
+                    continue
+                if ident[1] in self.paths:
+                    self.duplicates.append((ident[1], self.paths[ident[1]], f))
+                    continue
+                self.paths[ident[1]] = f
+                self.kinds[ident[1]] = ident[0]
+                if ident[0] == "product":
+                    self.products.append(f)
 
 
 _INLINE_HEADER = re.compile(r"^(product|subformula):\s*\{.*?\bid:\s*([^,}\s]+)")
@@ -387,7 +395,7 @@ def load_formula(path: str | Path, library: Library, *, search: list[Path] | Non
     """
     p = Path(path)
     cache = {} if _cache is None else _cache
-    key = str(p.resolve())
+    key = os.path.abspath(p)
     if key in cache:
         return cache[key]
     index = _index or FormulaIndex([p.parent.resolve(), *[Path(s).resolve() for s in (search or [])]])

@@ -5,6 +5,7 @@ from __future__ import annotations
 import difflib
 import re
 from dataclasses import dataclass
+from functools import lru_cache
 
 _UNITS = {"g": ("mass", 1.0), "kg": ("mass", 1000.0), "mg": ("mass", 0.001), "%": ("percent", 1.0),
           "ml": ("volume", 1.0), "l": ("volume", 1000.0)}
@@ -19,6 +20,17 @@ class Quantity:
 
 
 def parse_quantity(text: object, *, allowed: tuple[str, ...] = ("mass", "percent")) -> Quantity:
+    if isinstance(text, str):
+        return _parse_text(text, allowed)
+    return _parse(text, allowed)
+
+
+@lru_cache(maxsize=65536)
+def _parse_text(text: str, allowed: tuple[str, ...]) -> Quantity:
+    return _parse(text, allowed)
+
+
+def _parse(text: object, allowed: tuple[str, ...]) -> Quantity:
     """Parse "400 g" style text.  Raises ValueError with a message that says what to write.
 
     >>> parse_quantity("0.4 kg").value

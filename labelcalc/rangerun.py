@@ -22,7 +22,7 @@ from .errors import InputError, LabelError, Problem, display_path
 from .formula import Formula, FormulaIndex, build_formula, load_formula
 from .library import Library, load_library
 from .rulepack import RulePack, get_packs
-from .sources import index_for, product_files, sheet_products
+from .sources import index_for, sheet_products
 
 
 @dataclass
@@ -78,10 +78,13 @@ def _error_row(product: str, exc: LabelError, market: str = "") -> list[dict]:
              "message": p.message + (f" — {p.fix}" if p.fix else "")} for p in exc.problems]
 
 
-def enumerate_products(source: Path) -> list:
-    """Product references of a source: formula file paths, or sheet products."""
+def enumerate_products(source: Path, index: FormulaIndex | None = None) -> list:
+    """Product references of a source: formula file paths, or sheet products (and problems found)."""
     if source.is_dir():
-        return product_files(source)
+        index = index or FormulaIndex([source])
+        dup = [("__problem__", Problem(f"id '{i}' is defined twice (also in {display_path(a)}); this file is skipped",
+                                       file=display_path(b), field="product.id")) for i, a, b in index.duplicates]
+        return list(index.products) + dup
     if source.suffix.lower() in (".csv", ".xlsx"):
         items, problems = sheet_products(source)
         return items + [("__problem__", p) for p in problems]
@@ -91,7 +94,8 @@ def enumerate_products(source: Path) -> list:
                              file=display_path(source)))
 
 
-def run_chunk(items: list, library: Library, packs: list[RulePack], index: FormulaIndex) -> RangeResult:
+def run_chunk(items: list, library: Library, packs: list[RulePack], index: FormulaIndex,
+              with_labels: bool = True) -> RangeResult:
     """Load, compose, declare and assess a list of products (one process's share)."""
     res = RangeResult()
     cache: dict = {}
@@ -130,9 +134,10 @@ def run_chunk(items: list, library: Library, packs: list[RulePack], index: Formu
         for c, row, declared, statements, allergens, claims in batch.results():
             f = c.formula
             res.rows.append(row)
-            res.labels.append(LabelRecord(f.id, p.market, c.scenario, f.content_hash,
-                                          {i.id: ihash[i.id] for i in f.ingredients_used()}, rhash[p.market], declared,
-                                          statements, allergens, claims, f.file))
+            if with_labels:
+                res.labels.append(LabelRecord(f.id, p.market, c.scenario, f.content_hash,
+                                              {i.id: ihash[i.id] for i in f.ingredients_used()}, rhash[p.market],
+                                              declared, statements, allergens, claims, f.file))
     bad = {pid for pid, _ in failed_ids}
     for f in formulas:
         if f.id in comps:
@@ -184,34 +189,45 @@ def label_record(f: Formula, d, a, ing_hashes, rhash) -> LabelRecord:
                        sorted(c.claim for c in a.claims if c.verdict == ELIGIBLE), f.file)
 
 
+_WORKER_STATE: dict = {}
+
+
 def _worker(args):
-    items, lib_path, markets, rules, index_folders = args
-    library = load_library(lib_path)
-    packs = get_packs(markets, rules)
-    return run_chunk(items, library, packs, FormulaIndex([Path(x) for x in index_folders]))
+    """One process's share of a range; library, packs and sub-formula index are loaded once per process."""
+    items, lib_path, markets, rules, index_folders, with_labels = args
+    key = (lib_path, tuple(markets), rules, tuple(index_folders))
+    if key not in _WORKER_STATE:
+        _WORKER_STATE.clear()
+        _WORKER_STATE[key] = (load_library(lib_path), get_packs(markets, rules),
+                              FormulaIndex([Path(x) for x in index_folders]))
+    library, packs, index = _WORKER_STATE[key]
+    return run_chunk(items, library, packs, index, with_labels)
 
 
 def run_range(source: Path, library_path: Path, markets: list[str], rules: Path | None = None, *,
-              jobs: int = 1, progress=None, chunk_size: int = 200) -> RangeResult:
+              jobs: int = 1, progress=None, chunk_size: int = 200, with_labels: bool = True) -> RangeResult:
     """Run the whole range.  ``progress(done, total)`` is called as products finish."""
     library = load_library(library_path)
     packs = get_packs(markets, rules)
-    items = enumerate_products(source)
-    total = len(items)
     index = index_for(source)
+    items = enumerate_products(source, index)
+    total = len(items)
     index_folders = [str(source if source.is_dir() else source.parent)]
+    if jobs > 1:  # fewer, larger chunks: each carries its share of the table operations
+        chunk_size = max(chunk_size, -(-total // (jobs * 4)))
     chunks = [items[i:i + chunk_size] for i in range(0, total, chunk_size)] or [[]]
     result = RangeResult()
     done = 0
     if jobs <= 1:
         for ch in chunks:
-            result.merge(run_chunk(ch, library, packs, index))
+            result.merge(run_chunk(ch, library, packs, index, with_labels))
             done += len(ch)
             if progress:
                 progress(done, total)
     else:
         with ProcessPoolExecutor(max_workers=jobs) as ex:
-            futs = {ex.submit(_worker, (ch, str(library_path), markets, str(rules) if rules else None, index_folders)): len(ch)
+            futs = {ex.submit(_worker, (ch, str(library_path), markets, str(rules) if rules else None, index_folders,
+                                        with_labels)): len(ch)
                     for ch in chunks}
             for fut in as_completed(futs):
                 result.merge(fut.result())
@@ -263,23 +279,18 @@ def write_csv(path: Path, rows: list[dict], columns: list[str] | None = None) ->
 
 
 def write_xlsx(path: Path, sheets: dict[str, list[dict]]) -> None:
-    import openpyxl
+    from .xlsxout import write_workbook
 
-    def w(tmp: Path):
-        wb = openpyxl.Workbook(write_only=True)
-        for name, rows in sheets.items():
-            ws = wb.create_sheet(name)
-            cols = _columns(rows) or ["(none)"]
-            ws.append(cols)
-            for r in rows:
-                ws.append(["" if r.get(c) is None else r.get(c) for c in cols])
-        wb.save(tmp)
-
-    atomic_write(path, w)
+    atomic_write(path, lambda tmp: write_workbook(tmp, sheets))
 
 
 def write_json(path: Path, doc) -> None:
-    atomic_write(path, lambda tmp: tmp.write_text(json.dumps(doc, indent=1, ensure_ascii=False, default=str), encoding="utf-8"))
+    def w(tmp: Path):
+        with tmp.open("w", encoding="utf-8") as fh:  # streamed: a large range never sits in memory as one string
+            for chunk in json.JSONEncoder(indent=1, ensure_ascii=False, default=str).iterencode(doc):
+                fh.write(chunk)
+
+    atomic_write(path, w)
 
 
 ERROR_COLUMNS = ["product_id", "market", "file", "line", "field", "message"]

@@ -169,3 +169,26 @@ def test_parallel_run_equals_serial(tmp_path):
     strip = lambda rs: sorted((r["product_id"], r["scenario"], r.get("fat")) for r in rs)  # noqa: E731
     assert strip(a.rows) == strip(b.rows)
     assert sorted(e["product_id"] for e in a.errors) == sorted(e["product_id"] for e in b.errors)
+
+
+def test_xlsx_summary_matches_csv(tmp_path):
+    import openpyxl
+
+    src = make_range(tmp_path / "src", GOOD)
+    out = tmp_path / "out"
+    runner.invoke(app, ["range", str(src), "--market", "eu", "--out", str(out), "-q", "--no-register"])
+    with (out / "summary.csv").open() as fh:
+        rows = list(csv.reader(fh))
+    ws = openpyxl.load_workbook(out / "summary.xlsx")["summary"]
+    cells = [["" if c.value is None else str(c.value) for c in r] for r in ws.iter_rows()]
+    norm = lambda x: str(float(x)) if x.replace(".", "", 1).isdigit() else x  # noqa: E731
+    assert [[norm(x) for x in r] for r in cells] == [[norm(x) for x in r] for r in rows]
+
+
+def test_duplicate_product_ids_are_reported(tmp_path):
+    files = dict(GOOD)
+    files["good_a_copy"] = GOOD["good_a"]
+    src = make_range(tmp_path / "src", files)
+    res = run_range(src, src / "ingredients", ["eu"])
+    assert any("'good_a' is defined twice" in e["message"] for e in res.errors)
+    assert sum(1 for r in res.rows if r["product_id"] == "good_a") == 1
