@@ -15,7 +15,7 @@ from decimal import Decimal
 
 from . import components as C
 from .composition import Composition
-from .declare import Declaration, nutrient_values
+from .declare import Declaration, declare, nutrient_values
 from .rounding import format_number, to_decimal
 from .rulepack import RulePack
 from .rulepack_assess import Claim, Condition, FrontOfPack, Statement
@@ -561,6 +561,31 @@ def _colours(fop: FrontOfPack, ctx: _Context) -> dict:
             "confidence": fop.confidence}
 
 
+def fop_threshold(fop: FrontOfPack, ref_g: float | None, category: str | None) -> float | None:
+    """The %DV threshold of a 'high in' scheme for a product: small reference amounts, main dishes, or general."""
+    for t in fop.thresholds or []:
+        if "reference_amount_up_to" in t and ref_g is not None and ref_g <= t["reference_amount_up_to"]:
+            return t["percent"]
+        if (t.get("main_dish") and category in t.get("categories", [])
+                and (ref_g or 0) >= t.get("reference_amount_at_least", 0)):
+            return t["percent"]
+        if set(t) == {"percent"}:
+            return t["percent"]
+    return None
+
+
+def assess_against(comp: Composition, pack: RulePack, reference: list[Composition] | None, index: int = 0,
+                   **kw) -> Assessment:
+    """Declare and assess ``comp``; with a reference formula's compositions, comparative claims use the
+    reference scenario of the same index (low with low, high with high)."""
+    d = declare(comp, pack)
+    ref = None
+    if reference:
+        rc = reference[min(index, len(reference) - 1)]
+        ref = (rc, declare(rc, pack))
+    return assess(comp, pack, d, ref, **kw)
+
+
 def _high_in(fop: FrontOfPack, ctx: _Context) -> dict:
     ref_g = ctx.ref_g
     s = ctx.decl.serving_g
@@ -568,18 +593,7 @@ def _high_in(fop: FrontOfPack, ctx: _Context) -> dict:
         return {"scheme": fop.id, "name": fop.name, "verdicts": {}, "missing": "no serving and no reference amount",
                 "citation": fop.citation}
     basis_g = max(x for x in (ref_g, s) if x is not None)
-    threshold = None
-    for t in fop.thresholds or []:
-        if "reference_amount_up_to" in t and ref_g is not None and ref_g <= t["reference_amount_up_to"]:
-            threshold = t["percent"]
-            break
-        if (t.get("main_dish") and ctx.comp.formula.header.category in t.get("categories", [])
-                and (ref_g or 0) >= t.get("reference_amount_at_least", 0)):
-            threshold = t["percent"]
-            break
-        if set(t) == {"percent"}:
-            threshold = t["percent"]
-            break
+    threshold = fop_threshold(fop, ref_g, ctx.comp.formula.header.category)
     verdicts = {}
     for n, ref_key in (fop.high_in or {}).items():
         v = ctx.values[n][0]

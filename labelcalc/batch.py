@@ -19,7 +19,7 @@ from decimal import Decimal
 import numpy as np
 
 from . import components as C
-from .assess import ELIGIBLE, _leaf_component, _Context, claim_key
+from .assess import ELIGIBLE, _Context, _leaf_component, claim_key, fop_threshold
 from .composition import ATWATER_REPLACED, COL, COLUMNS, Composition
 from .declare import display_unit, energy_method, serving_plan, _servings_text
 from .energy import ENERGY_GROUPS, _energy_vectors, load_factor_set
@@ -554,18 +554,7 @@ class BatchLabels:
                     if ref_g is None and s is None:
                         continue
                     basis_g = max(x for x in (ref_g, s) if x is not None)
-                    threshold = None
-                    for t in fop.thresholds or []:
-                        if "reference_amount_up_to" in t and ref_g is not None and ref_g <= t["reference_amount_up_to"]:
-                            threshold = t["percent"]
-                            break
-                        if (t.get("main_dish") and cat[i] in t.get("categories", [])
-                                and (ref_g or 0) >= t.get("reference_amount_at_least", 0)):
-                            threshold = t["percent"]
-                            break
-                        if set(t) == {"percent"}:
-                            threshold = t["percent"]
-                            break
+                    threshold = fop_threshold(fop, ref_g, cat[i])
                     for k, ref_key in (fop.high_in or {}).items():
                         v = self.val[k][i]
                         if np.isnan(v):

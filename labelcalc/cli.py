@@ -170,20 +170,11 @@ def _reference(f, lib, packs):
 
 
 def assessments(f, lib, packs):
-    from .assess import assess
+    from .assess import assess_against
 
     comps = compose(f, lib)
     ref = _reference(f, lib, packs)
-    out = []
-    for p in packs:
-        for i, c in enumerate(comps):
-            d = declare(c, p)
-            r = None
-            if ref:
-                rc = ref[min(i, len(ref) - 1)]
-                r = (rc, declare(rc, p))
-            out.append(assess(c, p, d, r))
-    return out
+    return [assess_against(c, p, ref, i) for p in packs for i, c in enumerate(comps)]
 
 
 @app.command("assess")

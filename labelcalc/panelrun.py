@@ -6,10 +6,9 @@ from concurrent.futures import ProcessPoolExecutor
 from datetime import date as _date
 from pathlib import Path
 
-from .assess import assess
+from .assess import assess_against
 from .calcsheet import write_calculation_csv
 from .composition import compose
-from .declare import declare
 from .errors import LabelError
 from .formula import load_formula
 from .library import Library, load_library
@@ -32,12 +31,7 @@ def panels_for(formula_path: Path, library: Library, packs: list[RulePack], out:
     for p in packs:
         items = []
         for i, c in enumerate(comps):
-            d = declare(c, p)
-            ref = None
-            if reference:
-                rc = reference[min(i, len(reference) - 1)]
-                ref = (rc, declare(rc, p))
-            a = assess(c, p, d, ref)
+            a = assess_against(c, p, reference, i)
             checks = run_checks(a)
             failures += [f"{f.id} [{p.market}, {c.scenario}] {x.name}: {x.detail}" for x in checks if not x.ok]
             items.append((a, checks))

@@ -12,10 +12,9 @@ from __future__ import annotations
 import hashlib
 from dataclasses import dataclass, field
 
-from .assess import ELIGIBLE, assess
+from .assess import ELIGIBLE, assess_against
 from .composition import compose
 from .costing import cost_of
-from .declare import declare
 from .errors import InputError, Problem
 from .formula import Formula, Header, Line, map_tree
 from .library import Library
@@ -86,12 +85,8 @@ def figures(f: Formula, library: Library, packs: list[RulePack], label: str, pri
     out = []
     for p in packs:
         for i, c in enumerate(comps):
-            d = declare(c, p)
-            ref = None
-            if reference is not None:
-                rc = reference[min(i, len(reference) - 1)]
-                ref = (rc, declare(rc, p))
-            a = assess(c, p, d, ref)
+            a = assess_against(c, p, reference, i)
+            d = a.declaration
             s = d.serving_g
             cost = cost_of(c, prices)
             av, de = d.available_energy.kcal, d.declared_energy.kcal
