@@ -508,10 +508,10 @@ def test_no_laxative_statement_for_maltitol(lab):
     assert statement(a, "sorbitol_laxative") is None and statement(a, "mannitol_laxative") is None
 
 
-# ------------------------------------------------------------------ olestra, 21 CFR 172.867(d)-(e)
+# ------------------------------------------------------------------ sucrose polyester, 21 CFR 172.867(d)-(e)
 
-def _olestra(lab, vit_scale: float):
-    # 10 g olestra per 100 g needs 19 mg vitamin E, 510 ug RAE vitamin A, 3 ug vitamin D, 80 ug vitamin K per 100 g
+def _spe(lab, vit_scale: float):
+    # 10 g sucrose polyester per 100 g needs 19 mg vitamin E, 510 ug RAE vitamin A, 3 ug vitamin D, 80 ug vitamin K per 100 g
     lab.add("spe", {"nonabsorbed_lipid": 100}, name="Sucrose polyester", kinds=["fat"], substance="sucrose_polyester")
     lab.add("base", {"starch": 70, "protein": 8}, name="Potatoes")
     lab.add("vits", {"vitamin_e": 1900 * vit_scale, "vitamin_a": 51000 * vit_scale, "vitamin_d": 300 * vit_scale,
@@ -520,15 +520,15 @@ def _olestra(lab, vit_scale: float):
                              {"ingredient": "base", "amount": "89 g"}], category="snacks", serving="30 g")
 
 
-def test_olestra_vitamins_met(lab):
-    a = lab.assess(_olestra(lab, 1.0))
-    st = statement(a, "olestra_vitamins")
+def test_spe_vitamins_met(lab):
+    a = lab.assess(_spe(lab, 1.0))
+    st = statement(a, "spe_vitamins")
     assert st is not None and st.status == "required"
-    assert statement(a, "olestra_dietarily_insignificant").text == "*Dietarily insignificant"
+    assert statement(a, "spe_dietarily_insignificant").text == "*Dietarily insignificant"
 
 
-def test_olestra_vitamins_short(lab):
-    st = statement(lab.assess(_olestra(lab, 0.9)), "olestra_vitamins")
+def test_spe_vitamins_short(lab):
+    st = statement(lab.assess(_spe(lab, 0.9)), "spe_vitamins")
     assert st.status == "review" and any("SHORT" in f for f in st.figures)
 
 

@@ -121,4 +121,4 @@ def test_compare_cli(tmp_path, lib_dir, write):
     doc = json.loads(res.output)
     rb = next(r for r in doc["rows"] if r["formula"] == "crisp_b")
     assert rb["change_available_kcal_per_serving"] == pytest.approx(-32 * 9 * 0.3)
-    assert "olestra_vitamins" in rb["statements_added"]
+    assert "spe_vitamins" in rb["statements_added"]
