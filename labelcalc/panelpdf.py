@@ -123,14 +123,17 @@ class PanelDrawing(Flowable):
         return wrap_lines(label, font, self.size, width)
 
     def wrap(self, aw, ah):
-        self.height = self._draw(None)
+        if not hasattr(self, "_laid_out"):
+            self._laid_out = self._layout()
+        self.height = self._laid_out[1]
         return self.width_pt, self.height
 
     def draw(self):
-        self._draw(self.canv)
+        ops, H = self._laid_out if hasattr(self, "_laid_out") else self._layout()
+        self._paint(self.canv, ops, H)
 
-    def _draw(self, c) -> float:
-        """Draw (or, with c=None, only measure) the panel; returns its height in points."""
+    def _layout(self):
+        """The drawing operations and height of the panel (measured once, drawn once)."""
         d, lay, size = self.d, self.lay, self.size
         W = self.width_pt
         pad = 2.2 * mm if lay.style == "boxed" else 1.2 * mm
@@ -218,7 +221,12 @@ class PanelDrawing(Flowable):
                 y += size * 0.8 * 1.3
                 text(pad, y, part, FONT, size * 0.8)
         y += pad
-        H = y
+        return ops, y
+
+    def _paint(self, c, ops, H) -> None:
+        lay = self.lay
+        W = self.width_pt
+        pad = 2.2 * mm if lay.style == "boxed" else 1.2 * mm
         if c is not None:
             c.saveState()
             c.setFillColor(INK)
@@ -239,7 +247,6 @@ class PanelDrawing(Flowable):
                     c.setLineWidth(weight)
                     c.line(pad * 0.5, H - yy, W - pad * 0.5, H - yy)
             c.restoreState()
-        return H
 
 
 def _styles():
