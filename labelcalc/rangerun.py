@@ -218,6 +218,8 @@ def run_range(source: Path, library_path: Path, markets: list[str], rules: Path 
     chunks = [items[i:i + chunk_size] for i in range(0, total, chunk_size)] or [[]]
     result = RangeResult()
     done = 0
+    if progress:
+        progress(0, total)
     if jobs <= 1:
         for ch in chunks:
             result.merge(run_chunk(ch, library, packs, index, with_labels))
