@@ -551,7 +551,9 @@ def range_cmd(
         for c in changes:
             if c["status"] == "changed":
                 typer.echo(f"  changed: {c['product_id']} [{c['market']}, {c['scenario']}]: {c['what_moved']} — because {c['why'] or 'see formula'}")
-    typer.echo("wrote " + ", ".join(str(f) for f in files[:6]) + (f" and {len(files) - 6} more" if len(files) > 6 else ""))
+    from .errors import display_path
+
+    typer.echo("wrote " + ", ".join(display_path(f) for f in files[:6]) + (f" and {len(files) - 6} more" if len(files) > 6 else ""))
     typer.echo("DRAFT figures: verify against current local regulation with a qualified regulatory professional.")
     if result.errors:
         raise typer.Exit(1)

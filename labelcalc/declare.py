@@ -405,6 +405,8 @@ def declaration_dict(d: Declaration) -> dict:
             "available_kj_per_100g": d.available_energy.kj,
             "available_kcal_per_100g": d.available_energy.kcal,
         },
+        "percent_from": d.pack.panel.percent_from,
+        "percent_from_source": d.pack.panel.percent_from_citation,
         "rows": rows,
         "notes": d.notes,
         "reviews": d.reviews,

@@ -113,6 +113,9 @@ def declare_text(decls: list[Declaration]) -> str:
         for fn in p.panel.footnotes:
             if fn.when == "always" or has_pct:
                 out.append(f"  {fn.text}")
+        if has_pct:
+            out.append(f"Percentages computed from the {p.panel.percent_from} amounts"
+                       + (f" ({p.panel.percent_from_citation.strip()})" if p.panel.percent_from_citation else ""))
         out.append(f"Energy per 100 g: declared {num(d.declared_energy.kj, 0)} kJ / {num(d.declared_energy.kcal, 0)} kcal "
                    f"({d.declared_energy.factor_set.id}); available {num(d.available_energy.kj, 0)} kJ / "
                    f"{num(d.available_energy.kcal, 0)} kcal")
