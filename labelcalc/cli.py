@@ -58,6 +58,10 @@ def friendly(fn):
 
 
 def _library(formula: Path, library: Optional[Path]):
+    if not formula.exists():
+        from .errors import InputError, Problem
+
+        raise InputError(Problem("file not found", file=str(formula), fix="check the path"))
     return load_library(library or find_library(formula))
 
 
