@@ -69,9 +69,12 @@ def compose_text(comps: list[Composition], energies: dict[str, list[EnergyResult
         if unknown:
             out.append("Unknown (never read as zero): " + ", ".join(
                 f"{k} (from {', '.join(c.unknown_inputs(k)) or 'an input'})" for k in unknown))
+        by_text: dict[str, list[str]] = {}
         for er in energies_for(energies, f.id, i):
             for rv in er.reviews:
-                out.append(f"Review [{er.factor_set.id}]: {rv.strip()}")
+                by_text.setdefault(rv.strip(), []).append(er.factor_set.id)
+        for rv, sets in by_text.items():
+            out.append(f"Review [{', '.join(sets)}]: {rv}")
         out.append("")
     if f.is_fried:
         out.append("Note: fried product — oil uptake and moisture loss are estimates; laboratory analysis of fat and "
