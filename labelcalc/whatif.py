@@ -10,6 +10,7 @@ engine as ``declare`` and ``assess``.
 from __future__ import annotations
 
 import hashlib
+from pathlib import Path
 from dataclasses import dataclass, field
 
 from .assess import ELIGIBLE, assess_against
@@ -22,36 +23,77 @@ from .quantities import Quantity
 from .rulepack import RulePack
 
 
-def _blend(old, new, share: float, library: Library) -> Formula:
-    """A 100 g blend: (100 - share) g of old and share g of new (zero lines dropped)."""
+def _line(part, grams: float) -> Line:
+    q = Quantity(grams, "mass", f"{grams:g} g")
+    if isinstance(part, Formula):
+        return Line(part.id, grams, q, formula=part)
+    return Line(part.id, grams, q, ingredient=part)
+
+
+def _name(part) -> str:
+    return part.header.label_name or part.header.name if isinstance(part, Formula) else part.label_name
+
+
+def _blend(old, new, share: float) -> Formula:
+    """A 100 g blend: (100 - share) g of old and share g of new (zero lines dropped); either may be a sub-formula."""
     lines = []
     if share < 100:
-        lines.append(Line(old.id, 100.0 - share, Quantity(100.0 - share, "mass", f"{100 - share:g} g"), ingredient=old))
+        lines.append(_line(old, 100.0 - share))
     if share > 0:
-        lines.append(Line(new.id, share, Quantity(share, "mass", f"{share:g} g"), ingredient=new))
+        lines.append(_line(new, share))
     h = hashlib.sha256(f"{old.id}>{new.id}@{share!r}".encode()).hexdigest()[:16]
-    head = Header(id=f"{old.id}__to__{new.id}__{share:g}", name=f"{old.label_name} / {new.label_name} ({share:g} % replaced)",
-                  label_name=old.label_name if share < 50 else new.label_name)
+    head = Header(id=f"{old.id}__to__{new.id}__{share:g}", name=f"{_name(old)} / {_name(new)} ({share:g} % replaced)",
+                  label_name=_name(old) if share < 50 else _name(new))
     return Formula(head, "subformula", lines, [], "(substitution)", h, 100.0)
 
 
+def _sub_formulas(f: Formula) -> dict[str, Formula]:
+    found: dict[str, Formula] = {}
+    for sub in f.sub_formulas():
+        found.setdefault(sub.id, sub)
+        found.update({k: v for k, v in _sub_formulas(sub).items() if k not in found})
+    return found
+
+
+def _part(ident: str, f: Formula, library: Library, option: str):
+    """An ingredient of the library or a sub-formula (of this formula or in its folder) by id."""
+    subs = _sub_formulas(f)
+    if ident in subs:
+        return subs[ident]
+    if ident in library:
+        return library.get(ident)
+    from .formula import FormulaIndex, load_formula
+
+    index = FormulaIndex([Path(f.file).resolve().parent])
+    if ident in index.paths and index.kinds.get(ident) == "subformula":
+        return load_formula(index.paths[ident], library, _index=index)
+    return library.get(ident, field=option)  # raises with close-match suggestions
+
+
 def substitute(f: Formula, old_id: str, new_id: str, share: float, library: Library) -> Formula:
-    """A copy of ``f`` with ``share`` % of ingredient ``old_id`` replaced by ``new_id`` everywhere."""
+    """A copy of ``f`` with ``share`` % of ``old_id`` replaced by ``new_id`` everywhere it is used (batch lines at
+    any depth, sub-formula lines, the frying oil).  Either may be an ingredient or a sub-formula (e.g. one frying
+    blend for another)."""
     if not 0 <= share <= 100:
         raise InputError(Problem(f"replacement level {share:g} % is outside 0-100 %"))
-    old = library.get(old_id, field="--replace")
-    new = library.get(new_id, field="--with")
-    if old_id not in {i.id for i in f.ingredients_used()}:
+    old = _part(old_id, f, library, "--replace")
+    new = _part(new_id, f, library, "--with")
+    used = {i.id for i in f.ingredients_used()} | set(_sub_formulas(f))
+    if old_id not in used:
         raise InputError(Problem(f"'{old_id}' is not used in {f.id} (directly, in a sub-formula or as frying oil)",
                                  file=f.file, field="--replace"))
-    blend = _blend(old, new, share, library)
+    blend = _blend(old, new, share)
+    is_sub = isinstance(old, Formula)
+
+    def matches(ing, formula) -> bool:
+        return (formula is not None and formula.id == old_id) if is_sub else (ing is not None and ing.id == old_id)
 
     def on_line(ln: Line) -> None:
-        if ln.ingredient is not None and ln.ingredient.id == old_id:
+        if matches(ln.ingredient, ln.formula):
             ln.ingredient, ln.formula = None, blend
 
     def on_step(_g, _j, st) -> None:
-        if st.oil_ingredient is not None and st.oil_ingredient.id == old_id:
+        if st.oil_ref and matches(st.oil_ingredient, st.oil_formula):
             st.oil_ingredient, st.oil_formula = None, blend
 
     return map_tree(f, blend.content_hash, on_line=on_line, on_step=on_step)

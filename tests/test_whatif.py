@@ -122,3 +122,20 @@ def test_compare_cli(tmp_path, lib_dir, write):
     rb = next(r for r in doc["rows"] if r["formula"] == "crisp_b")
     assert rb["change_available_kcal_per_serving"] == pytest.approx(-32 * 9 * 0.3)
     assert "spe_vitamins" in rb["statements_added"]
+
+
+def test_replace_one_frying_blend_by_another(write, lib):
+    write("blend_a.yaml", """
+        subformula: {id: blend_a, name: Blend A}
+        batch: [{ingredient: oil, amount: 100 %}]
+    """)
+    write("blend_b.yaml", """
+        subformula: {id: blend_b, name: Blend B}
+        batch: [{ingredient: spe, amount: 75 %}, {ingredient: oil, amount: 25 %}]
+    """)
+    f = load_formula(write("fried.yaml", CRISP.format(oil="blend_a")), lib)
+    (c0,) = compose(substitute(f, "blend_a", "blend_b", 0, lib), lib)
+    (c1,) = compose(substitute(f, "blend_a", "blend_b", 100, lib), lib)
+    (cref,) = compose(f, lib)
+    assert c0.value("fat") == pytest.approx(cref.value("fat"))
+    assert c1.value("nonabsorbed_lipid") == pytest.approx(0.75 * 32)  # the whole uptake is now blend B
