@@ -5,7 +5,6 @@ from __future__ import annotations
 import sys
 from pathlib import Path
 
-import pytest
 
 from labelcalc.assess import assess
 from labelcalc.batch import BatchLabels

@@ -1,0 +1,93 @@
+"""Shared test helpers for claims tests: a small library and formulas written to tmp_path, assessed
+under a pack.  The numbers are invented test data, not foods."""
+
+from __future__ import annotations
+
+import yaml
+
+from labelcalc.assess import assess
+from labelcalc.composition import compose
+from labelcalc.declare import declare
+from labelcalc.formula import load_formula
+from labelcalc.library import load_library
+
+
+def _ingredient(per100: dict, *, name="Test food", kinds=(), allergens=(), substance=None, omit_allergens=False):
+    body = dict(per100)
+    minerals_mg = sum(body.get(k, 0) for k in ("sodium", "potassium", "calcium", "iron"))
+    if minerals_mg and "ash" not in body:
+        body["ash"] = minerals_mg / 1000 * 3
+    solids = sum(v for k, v in body.items() if k in (
+        "protein", "fat", "sugars", "starch", "fibre_soluble", "fibre_insoluble", "nonabsorbed_lipid", "sorbitol",
+        "mannitol", "maltitol", "xylitol", "isomalt", "lactitol", "erythritol", "glycerol", "ash"))
+    body.setdefault("water", max(0.0, 100.0 - solids - 0.001))
+    ing = {"label_name": name, "source": "test data (invented round numbers)", "unlisted": "zero", "per_100g": body,
+           "kinds": list(kinds)}
+    if not omit_allergens:
+        ing["allergens"] = list(allergens)
+    if substance:
+        ing["substance"] = substance
+    return ing
+
+
+class Lab:
+    """A small library and formulas in tmp_path, assessed under a pack."""
+
+    def __init__(self, tmp_path, pack):
+        self.dir, self.pack = tmp_path, pack
+        self.ingredients: dict[str, dict] = {}
+
+    def add(self, ing_id, per100, **kw):
+        self.ingredients[ing_id] = _ingredient(per100, **kw)
+        return ing_id
+
+    def _library(self):
+        d = self.dir / "ingredients"
+        d.mkdir(exist_ok=True)
+        (d / "lib.yaml").write_text(yaml.safe_dump({"ingredients": self.ingredients}, sort_keys=False), encoding="utf-8")
+        return load_library(d)
+
+    def formula(self, fid, batch, *, category="snacks", serving="30 g", sub=False, processing=None, name=None,
+                extra=None):
+        head = {"id": fid, "name": name or f"Test {fid}", **(extra or {})}
+        if sub:
+            head["label_name"] = name or f"Test {fid}"
+            doc = {"subformula": head, "batch": batch}
+        else:
+            head.update({"category": category, "serving": {"size": serving, "household": "1 piece"}})
+            doc = {"product": head, "batch": batch}
+        if processing:
+            doc["processing"] = processing
+        p = self.dir / f"{fid}.yaml"
+        p.write_text(yaml.safe_dump(doc, sort_keys=False), encoding="utf-8")
+        return p
+
+    def assess(self, path, reference_path=None, pack=None):
+        pack = pack or self.pack
+        lib = self._library()
+        (c,) = compose(load_formula(path, lib), lib)
+        ref = None
+        if reference_path is not None:
+            (rc,) = compose(load_formula(reference_path, lib), lib)
+            ref = (rc, declare(rc, pack))
+        return assess(c, pack, declare(c, pack), ref)
+
+
+def one(lab, per100, *, fid="p", category="snacks", serving="30 g", extra=None, **kw):
+    ing = lab.add(f"{fid}_food", per100, **kw)
+    return lab.formula(fid, [{"ingredient": ing, "amount": "100 g"}], category=category, serving=serving, extra=extra)
+
+
+def verdict(a, claim_id):
+    (c,) = [c for c in a.claims if c.claim == claim_id]
+    return c.verdict
+
+
+def claim(a, claim_id):
+    (c,) = [c for c in a.claims if c.claim == claim_id]
+    return c
+
+
+def statement(a, st_id):
+    hits = [s for s in a.statements if s.statement == st_id]
+    return hits[0] if hits else None
