@@ -48,13 +48,15 @@ class Lab:
         return load_library(d)
 
     def formula(self, fid, batch, *, category="snacks", serving="30 g", sub=False, processing=None, name=None,
-                extra=None):
+                extra=None, claims=(), label_name=None):
         head = {"id": fid, "name": name or f"Test {fid}", **(extra or {})}
         if sub:
-            head["label_name"] = name or f"Test {fid}"
+            head["label_name"] = label_name or name or f"Test {fid}"
             doc = {"subformula": head, "batch": batch}
         else:
             head.update({"category": category, "serving": {"size": serving, "household": "1 piece"}})
+            if claims:
+                head["claims"] = list(claims)
             doc = {"product": head, "batch": batch}
         if processing:
             doc["processing"] = processing
@@ -73,9 +75,11 @@ class Lab:
         return assess(c, pack, declare(c, pack), ref)
 
 
-def one(lab, per100, *, fid="p", category="snacks", serving="30 g", extra=None, **kw):
+def one(lab, per100, *, fid="p", category="snacks", serving="30 g", extra=None, claims=(), **kw):
+    """A product of one ingredient (100 g) with the given composition per 100 g."""
     ing = lab.add(f"{fid}_food", per100, **kw)
-    return lab.formula(fid, [{"ingredient": ing, "amount": "100 g"}], category=category, serving=serving, extra=extra)
+    return lab.formula(fid, [{"ingredient": ing, "amount": "100 g"}], category=category, serving=serving, extra=extra,
+                       claims=claims)
 
 
 def verdict(a, claim_id):

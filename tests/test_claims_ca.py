@@ -19,11 +19,9 @@ Values behind the front-of-package thresholds are "from memory — verify" in th
 from __future__ import annotations
 
 import pytest
-import yaml
+from claimkit import Lab, claim, one, statement, verdict  # noqa: F401
 
-from labelcalc.assess import CANNOT_TELL, ELIGIBLE, NOT_ELIGIBLE, assess
-from labelcalc.composition import compose
-from labelcalc.declare import declare
+from labelcalc.assess import CANNOT_TELL, ELIGIBLE, NOT_ELIGIBLE
 from labelcalc.formula import load_formula
 from labelcalc.library import load_library
 from labelcalc.rulepack import load_packs
@@ -31,89 +29,9 @@ from labelcalc.rulepack import load_packs
 CA = load_packs()["ca"]
 
 
-def _ingredient(per100: dict, *, name="Test food", kinds=(), allergens=(), substance=None, omit_allergens=False):
-    body = dict(per100)
-    minerals_mg = sum(body.get(k, 0) for k in ("sodium", "potassium", "calcium", "iron"))
-    if minerals_mg and "ash" not in body:
-        body["ash"] = minerals_mg / 1000 * 3
-    solids = sum(v for k, v in body.items() if k in (
-        "protein", "fat", "sugars", "starch", "fibre_soluble", "fibre_insoluble", "nonabsorbed_lipid", "sorbitol",
-        "mannitol", "maltitol", "xylitol", "isomalt", "lactitol", "erythritol", "glycerol", "ash"))
-    body.setdefault("water", max(0.0, 100.0 - solids - 0.001))
-    ing = {"label_name": name, "source": "test data (invented round numbers)", "unlisted": "zero", "per_100g": body,
-           "kinds": list(kinds)}
-    if not omit_allergens:
-        ing["allergens"] = list(allergens)
-    if substance:
-        ing["substance"] = substance
-    return ing
-
-
-class Lab:
-    """A small library and formulas in tmp_path, assessed under a pack."""
-
-    def __init__(self, tmp_path, pack):
-        self.dir, self.pack = tmp_path, pack
-        self.ingredients: dict[str, dict] = {}
-
-    def add(self, ing_id, per100, **kw):
-        self.ingredients[ing_id] = _ingredient(per100, **kw)
-        return ing_id
-
-    def _library(self):
-        d = self.dir / "ingredients"
-        d.mkdir(exist_ok=True)
-        (d / "lib.yaml").write_text(yaml.safe_dump({"ingredients": self.ingredients}, sort_keys=False), encoding="utf-8")
-        return load_library(d)
-
-    def formula(self, fid, batch, *, category="snacks", serving="30 g", sub=False, processing=None, name=None):
-        head = {"id": fid, "name": name or f"Test {fid}"}
-        if sub:
-            head["label_name"] = name or f"Test {fid}"
-            doc = {"subformula": head, "batch": batch}
-        else:
-            head.update({"category": category, "serving": {"size": serving, "household": "1 piece"}})
-            doc = {"product": head, "batch": batch}
-        if processing:
-            doc["processing"] = processing
-        p = self.dir / f"{fid}.yaml"
-        p.write_text(yaml.safe_dump(doc, sort_keys=False), encoding="utf-8")
-        return p
-
-    def assess(self, path, reference_path=None, pack=None):
-        pack = pack or self.pack
-        lib = self._library()
-        (c,) = compose(load_formula(path, lib), lib)
-        ref = None
-        if reference_path is not None:
-            (rc,) = compose(load_formula(reference_path, lib), lib)
-            ref = (rc, declare(rc, pack))
-        return assess(c, pack, declare(c, pack), ref)
-
-
 @pytest.fixture
 def lab(tmp_path):
     return Lab(tmp_path, CA)
-
-
-def one(lab, per100, *, fid="p", category="snacks", serving="30 g", **kw):
-    ing = lab.add(f"{fid}_food", per100, **kw)
-    return lab.formula(fid, [{"ingredient": ing, "amount": "100 g"}], category=category, serving=serving)
-
-
-def verdict(a, claim_id):
-    (c,) = [c for c in a.claims if c.claim == claim_id]
-    return c.verdict
-
-
-def claim(a, claim_id):
-    (c,) = [c for c in a.claims if c.claim == claim_id]
-    return c
-
-
-def statement(a, st_id):
-    hits = [s for s in a.statements if s.statement == st_id]
-    return hits[0] if hits else None
 
 
 # --- absolute claims: at, just inside and just outside each limit ------------------------------------

@@ -15,98 +15,27 @@ comments for the confidence of each value), 21 CFR 172.804, 172.867, 180.25, 184
 
 from __future__ import annotations
 
+import claimkit
 import pytest
-import yaml
+from claimkit import Lab, statement  # noqa: F401
 
-from labelcalc.assess import CANNOT_TELL, ELIGIBLE, NOT_ELIGIBLE, assess
-from labelcalc.composition import compose
-from labelcalc.declare import declare
-from labelcalc.formula import load_formula
-from labelcalc.library import load_library
+from labelcalc.assess import CANNOT_TELL, ELIGIBLE, NOT_ELIGIBLE
 from labelcalc.rulepack import load_packs
 
 US = load_packs()["us"]
 
 
-def _ingredient(per100: dict, *, name="Test food", kinds=(), allergens=(), substance=None, omit_allergens=False):
-    body = dict(per100)
-    minerals_mg = sum(body.get(k, 0) for k in ("sodium", "potassium", "calcium", "iron"))
-    if minerals_mg and "ash" not in body:
-        body["ash"] = minerals_mg / 1000 * 3  # ash must hold the minerals (library check)
-    solids = sum(v for k, v in body.items() if k in ("protein", "fat", "sugars", "starch", "fibre_soluble",
-                                                   "fibre_insoluble", "nonabsorbed_lipid", "sorbitol", "mannitol",
-                                                   "maltitol", "ash"))
-    body.setdefault("water", max(0.0, 100.0 - solids - 0.001))
-    ing = {"label_name": name, "source": "test data (invented round numbers)", "unlisted": "zero", "per_100g": body,
-           "kinds": list(kinds)}
-    if not omit_allergens:
-        ing["allergens"] = list(allergens)
-    if substance:
-        ing["substance"] = substance
-    return ing
-
-
-class Lab:
-    """Writes a small library and formulas into tmp_path and assesses them under the US pack."""
-
-    def __init__(self, tmp_path):
-        self.dir = tmp_path
-        self.ingredients: dict[str, dict] = {}
-
-    def add(self, ing_id: str, per100: dict, **kw) -> str:
-        self.ingredients[ing_id] = _ingredient(per100, **kw)
-        return ing_id
-
-    def _library(self):
-        d = self.dir / "ingredients"
-        d.mkdir(exist_ok=True)
-        (d / "lib.yaml").write_text(yaml.safe_dump({"ingredients": self.ingredients}, sort_keys=False), encoding="utf-8")
-        return load_library(d)
-
-    def formula(self, fid: str, batch: list[dict], *, category="bars_grain", serving="40 g", claims=(), sub=False,
-                label_name=None):
-        head = {"id": fid, "name": f"Test {fid}"}
-        if sub:
-            head["label_name"] = label_name or f"Test {fid}"
-            doc = {"subformula": head, "batch": batch}
-        else:
-            head.update({"category": category, "serving": {"size": serving, "household": "1 piece"}})
-            if claims:
-                head["claims"] = list(claims)
-            doc = {"product": head, "batch": batch}
-        p = self.dir / f"{fid}.yaml"
-        p.write_text(yaml.safe_dump(doc, sort_keys=False), encoding="utf-8")
-        return p
-
-    def assess(self, path, reference_path=None):
-        lib = self._library()
-        (c,) = compose(load_formula(path, lib), lib)
-        d = declare(c, US)
-        ref = None
-        if reference_path is not None:
-            (rc,) = compose(load_formula(reference_path, lib), lib)
-            ref = (rc, declare(rc, US))
-        return assess(c, US, d, ref)
-
-
 @pytest.fixture
 def lab(tmp_path):
-    return Lab(tmp_path)
+    return Lab(tmp_path, US)
 
 
-def one(lab, per100, *, category="bars_grain", serving="40 g", claims=(), fid="p", **kw):
-    ing = lab.add(f"{fid}_food", per100, **kw)
-    return lab.formula(fid, [{"ingredient": ing, "amount": "100 g"}], category=category, serving=serving, claims=claims)
+def one(lab, per100, *, category="bars_grain", serving="40 g", **kw):
+    """A one-ingredient product; US defaults: grain-based bar (RACC 40 g, not small), 40 g serving."""
+    return claimkit.one(lab, per100, category=category, serving=serving, **kw)
 
 
-def verdict(a, claim_id):
-    (c,) = [c for c in a.claims if c.claim == claim_id]
-    return c
-
-
-def statement(a, st_id):
-    hits = [s for s in a.statements if s.statement == st_id]
-    return hits[0] if hits else None
+verdict = claimkit.claim  # here the whole verdict object is compared (its .verdict, .failed, .texts ...)
 
 
 def sugars_for_kcal(kcal_per_100g: float) -> dict:
