@@ -19,10 +19,10 @@ from decimal import Decimal
 import numpy as np
 
 from . import components as C
-from .assess import ELIGIBLE, _Context, _leaf_component, claim_key, fop_threshold
-from .composition import ATWATER_REPLACED, COL, COLUMNS, Composition
-from .declare import display_unit, energy_method, serving_plan, _servings_text
-from .energy import ENERGY_GROUPS, _energy_vectors, load_factor_set
+from .assess import _Context, _leaf_component, claim_key, fop_threshold
+from .composition import ATWATER_REPLACED, COL, Composition
+from .declare import display_unit, energy_method, serving_plan
+from .energy import _prepare, load_factor_set
 from .errors import LabelError
 from .rounding import format_number, to_decimal
 from .rulepack import RulePack
@@ -192,39 +192,28 @@ class BatchLabels:
 
     # ----------------------------------------------------------------- energy
     def _energy_for(self, fs, rows: np.ndarray):
-        kj_v, kcal_v = _energy_vectors(fs)
-        groups = list(ENERGY_GROUPS)
+        """Energy (kJ, kcal per 100 g; NaN when unknown) and review counts, from the factor set's group
+        matrices (energy._prepare, the same the single-label energy_of uses)."""
+        _, gkj, gkcal, relevant, review_cols = _prepare(fs)
         V0 = self.V0[rows].copy()
         U = self.U[rows]
         if fs.factor_set.ingredient_specific:
             for k in ATWATER_REPLACED:
                 V0[:, COL[k]] -= V0[:, COL[f"atwater_covered_{k}"]]
-        unknown = np.zeros(len(rows), dtype=bool)
-        kj = np.zeros(len(rows))
-        kcal = np.zeros(len(rows))
-        for g in groups:
-            cols = [COL[m] for m in ENERGY_GROUPS[g] if m in COL]
-            if g == "partial_lipid":
-                cols = [COL[k] for k in ("partial_lipid", "partial_lipid_kj", "partial_lipid_kcal",
-                                         "partial_lipid_salatrim", "partial_lipid_other")]
-            rel = [c for c in cols if kj_v[c] or kcal_v[c]]
-            kj += V0[:, cols] @ kj_v[cols]
-            kcal += V0[:, cols] @ kcal_v[cols]
-            if rel:
-                unknown |= U[:, rel].any(axis=1)
+        kj, kcal = np.zeros(len(rows)), np.zeros(len(rows))
+        for ekj, ekcal in zip((V0 @ gkj.T).T, (V0 @ gkcal.T).T):  # group by group, summed in energy_of's order
+            kj = kj + ekj
+            kcal = kcal + ekcal
+        unknown = (U & relevant.any(axis=0)).any(axis=1)
         if fs.factor_set.ingredient_specific:
             c = COL["specific_atwater_kcal"]
             kcal += V0[:, c]
-            kj += V0[:, c] * (fs.factor_set.kj_from_kcal or 0)
+            kj = kj + V0[:, c] * fs.factor_set.kj_from_kcal if fs.factor_set.kj_from_kcal else np.full(len(rows), np.nan)
             unknown |= U[:, c]
-            if not fs.factor_set.kj_from_kcal:
-                kj[:] = np.nan
         by_text: dict[str, np.ndarray] = {}  # one review per distinct text, as the single-label path does
-        for f in fs.factors:
-            if f.review:
-                cols = [COL["partial_lipid"]] if "partial_lipid_own" in f.components else [COL[c] for c in f.components if c in COL]
-                hit = self.V0[rows][:, cols].sum(axis=1) > 0
-                by_text[f.review] = by_text.get(f.review, np.zeros(len(rows), dtype=bool)) | hit
+        for cols, text in review_cols:
+            hit = self.V0[rows][:, cols].sum(axis=1) > 0
+            by_text[text] = by_text.get(text, np.zeros(len(rows), dtype=bool)) | hit
         nrev = np.sum(list(by_text.values()), axis=0) if by_text else np.zeros(len(rows), dtype=int)
         return np.where(unknown, np.nan, kj), np.where(unknown, np.nan, kcal), nrev
 
@@ -239,7 +228,7 @@ class BatchLabels:
             kj, kcal, nrev = self._energy_for(fs, rows)
             self.e_kj[rows], self.e_kcal[rows], self.e_reviews[rows] = kj, kcal, nrev
         av = load_factor_set("available")
-        self.a_kj, self.a_kcal, _ = self._energy_for(av, np.arange(n))
+        _, self.a_kcal, _ = self._energy_for(av, np.arange(n))
 
     # -------------------------------------------------------------- nutrients
     def _nutrients(self):
@@ -668,10 +657,3 @@ class BatchLabels:
             row["reviews"] = int(self.e_reviews[i]) + int(zero[i]) + (1 if unknown_alg[i] else 0)
             out.append((c, row, declared, sorted(statements[i]), sorted(allergens[i]), sorted(eligible[i])))
         return out
-
-
-def servings_text(comp, pack, plan) -> str | None:
-    return _servings_text(comp, pack, plan.serving, plan.container, plan.single)
-
-
-__all__ = ["BatchLabels", "round_array", "op_vec", "ELIGIBLE", "COLUMNS"]

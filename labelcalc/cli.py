@@ -57,6 +57,12 @@ def friendly(fn):
     return wrapper
 
 
+def _load(formula: Path, library: Optional[Path]):
+    """The ingredient library and the validated formula of a command."""
+    lib = _library(formula, library)
+    return lib, load_formula(formula, lib)
+
+
 def _library(formula: Path, library: Optional[Path]):
     if not formula.exists():
         from .errors import InputError, Problem
@@ -124,8 +130,7 @@ def compose_cmd(
     as_json: bool = JsonOpt,
 ):
     """Finished-product composition per 100 g and per serving, with available and declared-basis energy."""
-    lib = _library(formula, library)
-    f = load_formula(formula, lib)
+    lib, f = _load(formula, library)
     comps = compose(f, lib)
     if as_json:
         typer.echo(json.dumps(compose_document(f, comps), indent=2, ensure_ascii=False))
@@ -145,8 +150,7 @@ def declare_cmd(
     as_json: bool = JsonOpt,
 ):
     """Each market's declared values: rows, rounding, reference values, columns."""
-    lib = _library(formula, library)
-    f = load_formula(formula, lib)
+    lib, f = _load(formula, library)
     packs = get_packs(market.split(","), rules)
     comps = compose(f, lib)
     decls = [declare(c, p) for p in packs for c in comps]  # all computed before anything is printed
@@ -194,8 +198,7 @@ def assess_cmd(
     from .assess_json import assessment_dict
     from .textreport import assess_text
 
-    lib = _library(formula, library)
-    f = load_formula(formula, lib)
+    lib, f = _load(formula, library)
     items = assessments(f, lib, get_packs(market.split(","), rules))
     if as_json:
         doc = {"product": {"id": f.id, "name": f.header.name, "content_hash": f.content_hash},
@@ -443,8 +446,7 @@ def verify_cmd(
     from .lab import load_lab
     from .verify import verify
 
-    lib = _library(formula, library)
-    f = load_formula(formula, lib)
+    lib, f = _load(formula, library)
     cert = load_lab(lab)
     packs = get_packs(market.split(","), rules)
     reports = []
@@ -486,8 +488,7 @@ def calibrate_cmd(
     from .calibrate import calibrate, write_calibrated
     from .lab import load_lab
 
-    lib = _library(formula, library)
-    f = load_formula(formula, lib)
+    lib, f = _load(formula, library)
     cal = calibrate(f, lib, load_lab(lab), force=force)
     typer.echo(f"{f.header.name}: step '{cal.step}' in {cal.in_formula}")
     rng = lambda r: f" (range {r[0]:.2f} to {r[1]:.2f} from the lab's uncertainty)" if r else ""

@@ -101,7 +101,6 @@ class Composition:
     finished_grams: float
     steps: list[StepResult]
     _table: "CompositionTable" = field(repr=False)
-    _row_cols: list[tuple[int, float]] = field(repr=False, default_factory=list)
 
     def value(self, key: str) -> float | None:
         """Value per 100 g of a component or derived total; None when unknown."""

@@ -149,6 +149,8 @@ def run_chunk(items: list, library: Library, packs: list[RulePack], index: Formu
 
 
 def summary_row(f: Formula, d, a) -> dict:
+    """The summary row of one label from declare/assess (range runs build it in batch.py; tests/test_batch.py
+    holds the two equal)."""
     main = d.columns[0]
     e, av = d.declared_energy, d.available_energy
     s = d.serving_g
@@ -178,6 +180,7 @@ def summary_row(f: Formula, d, a) -> dict:
 
 
 def label_record(f: Formula, d, a, ing_hashes, rhash) -> LabelRecord:
+    """The register record of one label from declare/assess (the batch path's counterpart, see summary_row)."""
     declared = {}
     for r in d.shown_rows:
         for b in d.columns:
