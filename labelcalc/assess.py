@@ -14,7 +14,7 @@ from dataclasses import dataclass, field
 from decimal import Decimal
 
 from . import components as C
-from .composition import Composition
+from .composition import Composition, _fkey, _steps_of
 from .declare import Declaration, declare, nutrient_values
 from .rounding import format_number, to_decimal
 from .rulepack import RulePack
@@ -398,7 +398,7 @@ def ingredient_list(ctx: _Context, allergens: dict) -> dict | None:
                               "components": [{"name": n, "allergen": False, "components": []} for n in (ing.sub_ingredients or [])]})
             else:
                 sub = ln.formula
-                sfin = comp._table.finished[_key(sub)]["low" if scenario == "nominal" else scenario]
+                sfin = comp._table.finished[_fkey(sub)]["low" if scenario == "nominal" else scenario]
                 items.append({"name": ln.label_name or sub.header.label_name or sub.header.name, "grams_per_100g": g,
                               "id": sub.id, "allergen": False, "is_water": False,
                               "components": items_of(sub, g / sfin, sfin, scenario, False)})
@@ -412,7 +412,7 @@ def ingredient_list(ctx: _Context, allergens: dict) -> dict | None:
                               "allergen": bool(names_of(ing)), "allergen_names": names_of(ing), "components": []})
             else:
                 sub = st.oil_formula
-                sfin = comp._table.finished[_key(sub)]["low" if scenario == "nominal" else scenario]
+                sfin = comp._table.finished[_fkey(sub)]["low" if scenario == "nominal" else scenario]
                 for it in items_of(sub, g / sfin, sfin, scenario, False):
                     items.append(it)
         return items
@@ -456,15 +456,7 @@ def _stem(word: str) -> str:
     return word
 
 
-def _key(f):
-    from .composition import _fkey
-
-    return _fkey(f)
-
-
 def _steps(comp: Composition, formula) -> list[float]:
-    from .composition import _steps_of
-
     return _steps_of(formula, comp.scenario, comp._table)
 
 

@@ -228,8 +228,6 @@ class RulePack(Strict):
         s = self.servings
         if s.servings_rounding and s.servings_rounding not in self.rounding:
             errs.append(f"servings.servings_rounding '{s.servings_rounding}' is not defined under 'rounding'")
-        if "per_serving" in self.panel.bases and not s.required and False:
-            pass
         if errs:
             raise ValueError("; ".join(errs))
         return self
