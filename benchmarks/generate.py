@@ -17,9 +17,30 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parent.parent
 DEMO = ROOT / "demo_products"
 
-SOLIDS = ["potato_raw", "wheat_flour", "whole_wheat_flour", "corn_grits", "rice_flour", "oat_flakes", "sugar",
-          "glucose_syrup", "dextrose", "maltodextrin", "sea_salt", "baking_soda", "sesame_seeds", "cheese_powder",
-          "whey_powder", "onion_powder", "garlic_powder", "paprika", "yeast_extract", "inulin", "pectin", "citric_acid"]
+SOLIDS = [
+    "potato_raw",
+    "wheat_flour",
+    "whole_wheat_flour",
+    "corn_grits",
+    "rice_flour",
+    "oat_flakes",
+    "sugar",
+    "glucose_syrup",
+    "dextrose",
+    "maltodextrin",
+    "sea_salt",
+    "baking_soda",
+    "sesame_seeds",
+    "cheese_powder",
+    "whey_powder",
+    "onion_powder",
+    "garlic_powder",
+    "paprika",
+    "yeast_extract",
+    "inulin",
+    "pectin",
+    "citric_acid",
+]
 FATS = ["sunflower_oil", "rapeseed_oil", "structured_lipid_fat", "salatrim_fat"]
 SUBS = ["hl_sea_salt_seasoning", "hl_cheese_onion_seasoning"]
 CATS = ["snacks", "crackers_snack", "cookies", "bars_grain"]
@@ -42,17 +63,21 @@ def one(i: int, rng: random.Random) -> str:
     if kind < 0.33:
         oil = rng.choice(["sunflower_oil", "rapeseed_oil", "hl_frying_blend_75"])
         up = f"[{rng.randint(22, 28)}, {rng.randint(30, 36)}]" if rng.random() < 0.5 else str(rng.randint(20, 35))
-        proc = (f"processing:\n  - step: frying\n    moisture_loss: {{final_water: {rng.uniform(1.5, 4):.2f}}}\n"
-                f"    oil_uptake: {{oil: {oil}, per_100g: {up}}}\n")
+        proc = (
+            f"processing:\n  - step: frying\n    moisture_loss: {{final_water: {rng.uniform(1.5, 4):.2f}}}\n"
+            f"    oil_uptake: {{oil: {oil}, per_100g: {up}}}\n"
+        )
     elif kind < 0.66:
         proc = f"processing:\n  - step: baking\n    moisture_loss: {{final_water: {rng.uniform(2, 8):.2f}}}\n"
     else:
         proc = f"processing:\n  - step: drying\n    yield: {rng.uniform(0.85, 0.97):.3f}\n"
     batch = "\n".join(f"  - {{{kind_}: {name}, amount: {g} g}}" for name, kind_, g in lines)
     serving = rng.choice([25, 28, 30, 40])
-    return (f"product:\n  id: bench_{i:06d}\n  name: Benchmark product {i}\n  category: {rng.choice(CATS)}\n"
-            f"  serving: {{size: {serving} g}}\n  net_quantity: {serving * rng.randint(3, 8)} g\n"
-            f"batch:\n{batch}\n{proc}")
+    return (
+        f"product:\n  id: bench_{i:06d}\n  name: Benchmark product {i}\n  category: {rng.choice(CATS)}\n"
+        f"  serving: {{size: {serving} g}}\n  net_quantity: {serving * rng.randint(3, 8)} g\n"
+        f"batch:\n{batch}\n{proc}"
+    )
 
 
 def premix(j: int, rng: random.Random) -> str:

@@ -42,8 +42,10 @@ def parse_only(folder: Path) -> float:
 def run(cmd: list[str]) -> tuple[float, float]:
     """Wall time [s] and peak RSS [MB] of a child command (and its own children)."""
     t = time.perf_counter()
-    code = (f"import resource, subprocess, sys; r = subprocess.run({cmd!r}); "
-            "u = resource.getrusage(resource.RUSAGE_CHILDREN); print(u.ru_maxrss); sys.exit(0)")
+    code = (
+        f"import resource, subprocess, sys; r = subprocess.run({cmd!r}); "
+        "u = resource.getrusage(resource.RUSAGE_CHILDREN); print(u.ru_maxrss); sys.exit(0)"
+    )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
     wall = time.perf_counter() - t
     rss_kb = int(out.stdout.strip().splitlines()[-1])
@@ -51,8 +53,23 @@ def run(cmd: list[str]) -> tuple[float, float]:
 
 
 def range_cmd(src: Path, out: Path, jobs: int, panels: bool = False) -> list[str]:
-    cmd = [sys.executable, "-m", "labelcalc.cli", "range", str(src), "--market", MARKETS, "--out", str(out),
-           "--library", str(src / "ingredients"), "--jobs", str(jobs), "--no-register", "-q"]
+    cmd = [
+        sys.executable,
+        "-m",
+        "labelcalc.cli",
+        "range",
+        str(src),
+        "--market",
+        MARKETS,
+        "--out",
+        str(out),
+        "--library",
+        str(src / "ingredients"),
+        "--jobs",
+        str(jobs),
+        "--no-register",
+        "-q",
+    ]
     return cmd + (["--panels"] if panels else [])
 
 
@@ -66,17 +83,29 @@ def main() -> None:
         parse = parse_only(src)
         t1, m1 = run(range_cmd(src, work / f"out{n}-j1", 1))
         t2, m2 = run(range_cmd(src, work / f"out{n}-j2", 2))
-        results[str(n)] = {"parse_s": round(parse, 2), "range_jobs1_s": round(t1, 2), "range_jobs2_s": round(t2, 2),
-                           "ratio_jobs1": round(t1 / parse, 2), "ratio_jobs2": round(t2 / parse, 2),
-                           "peak_rss_mb_jobs1": round(m1), "peak_rss_mb_jobs2": round(m2)}
+        results[str(n)] = {
+            "parse_s": round(parse, 2),
+            "range_jobs1_s": round(t1, 2),
+            "range_jobs2_s": round(t2, 2),
+            "ratio_jobs1": round(t1 / parse, 2),
+            "ratio_jobs2": round(t2 / parse, 2),
+            "peak_rss_mb_jobs1": round(m1),
+            "peak_rss_mb_jobs2": round(m2),
+        }
         print(n, results[str(n)], flush=True)
-    results["scaling_20k_over_10k_jobs2"] = round(results[str(n2)]["range_jobs2_s"] / results[str(n1)]["range_jobs2_s"], 2)
+    results["scaling_20k_over_10k_jobs2"] = round(
+        results[str(n2)]["range_jobs2_s"] / results[str(n1)]["range_jobs2_s"], 2
+    )
     src = generate(npdf, work / f"pdf{npdf}")
     t_plain, _ = run(range_cmd(src, work / "pdf-plain", 2))
     t_pdf, _ = run(range_cmd(src, work / "pdf-out", 2, panels=True))
     n_pdf = len(list((work / "pdf-out" / "panels").glob("*.pdf")))
-    results["pdf"] = {"products": npdf, "pdfs": n_pdf, "seconds_for_pdfs": round(t_pdf - t_plain, 2),
-                      "pdfs_per_second_jobs2": round(n_pdf / max(t_pdf - t_plain, 1e-9), 1)}
+    results["pdf"] = {
+        "products": npdf,
+        "pdfs": n_pdf,
+        "seconds_for_pdfs": round(t_pdf - t_plain, 2),
+        "pdfs_per_second_jobs2": round(n_pdf / max(t_pdf - t_plain, 1e-9), 1),
+    }
     print("pdf", results["pdf"])
     (HERE / ("results-quick.json" if quick else "results.json")).write_text(json.dumps(results, indent=2) + "\n")
 

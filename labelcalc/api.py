@@ -11,18 +11,32 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from .composition import Composition, compose, compose_many
-from .declare import Declaration, declare
-from .energy import EnergyResult, energy_of, load_factor_set, rules_dir
-from .errors import InputError, Problem
-from .formula import Formula, load_formula
-from .library import Library, load_library
-from .rulepack import RulePack, get_packs, load_packs
+from labelcalc.errors import InputError, Problem
+from labelcalc.formulation.composition import Composition, compose, compose_many
+from labelcalc.formulation.energy import EnergyResult, energy_of, load_factor_set, rules_dir
+from labelcalc.intake.formula import Formula, load_formula
+from labelcalc.intake.library import Library, load_library
+from labelcalc.labelling.declare import Declaration, declare
+from labelcalc.labelling.rulepack import RulePack, get_packs, load_packs
 
 __all__ = [
-    "Composition", "Declaration", "EnergyResult", "Formula", "Library", "RulePack",
-    "compose", "compose_many", "declare", "energy_of", "find_library", "get_packs", "load_factor_set",
-    "load_formula", "load_library", "load_packs", "rules_dir",
+    "Composition",
+    "Declaration",
+    "EnergyResult",
+    "Formula",
+    "Library",
+    "RulePack",
+    "compose",
+    "compose_many",
+    "declare",
+    "energy_of",
+    "find_library",
+    "get_packs",
+    "load_factor_set",
+    "load_formula",
+    "load_library",
+    "load_packs",
+    "rules_dir",
 ]
 
 
@@ -34,5 +48,10 @@ def find_library(formula_path: str | Path) -> Path:
         cand = folder / "ingredients"
         if cand.is_dir():
             return cand
-    raise InputError(Problem("no ingredient library found next to the formula (an 'ingredients/' folder)",
-                             file=str(formula_path), fix="pass --library PATH"))
+    raise InputError(
+        Problem(
+            "no ingredient library found next to the formula (an 'ingredients/' folder)",
+            file=str(formula_path),
+            fix="pass --library PATH",
+        )
+    )

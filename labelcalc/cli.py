@@ -11,20 +11,19 @@ import functools
 import json
 import sys
 from pathlib import Path
-from typing import Optional
 
 import typer
 
-from . import __version__
-from .api import find_library
-from .composition import compose
-from .declare import declaration_dict, declare
-from .energy import energy_by_line, energy_of, load_factor_set, rules_dir
-from .errors import LabelError
-from .formula import load_formula
-from .library import load_library
-from .rulepack import get_packs, load_pack_file, load_packs
-from .textreport import compose_text, declare_text
+from labelcalc import __version__
+from labelcalc.api import find_library
+from labelcalc.errors import LabelError
+from labelcalc.formulation.composition import compose
+from labelcalc.formulation.energy import energy_by_line, energy_of, load_factor_set, rules_dir
+from labelcalc.intake.formula import load_formula
+from labelcalc.intake.library import load_library
+from labelcalc.labelling.declare import declaration_dict, declare
+from labelcalc.labelling.rulepack import get_packs, load_pack_file, load_packs
+from labelcalc.outputs.textreport import compose_text, declare_text
 
 app = typer.Typer(
     add_completion=False,
@@ -35,9 +34,16 @@ app = typer.Typer(
 rules_app = typer.Typer(no_args_is_help=True, help="List, show and check the market rule packs.")
 app.add_typer(rules_app, name="rules")
 
-LibraryOpt = typer.Option(None, "--library", "-l", help="Ingredient library (folder or file). Default: the nearest 'ingredients/' folder beside the formula.")
+LibraryOpt = typer.Option(
+    None,
+    "--library",
+    "-l",
+    help="Ingredient library (folder or file). Default: the nearest 'ingredients/' folder beside the formula.",
+)
 JsonOpt = typer.Option(False, "--json", help="Write a JSON document instead of the table.")
-RulesOpt = typer.Option(None, "--rules", help="Folder of market rule packs to use instead of the built-in rules/markets.")
+RulesOpt = typer.Option(
+    None, "--rules", help="Folder of market rule packs to use instead of the built-in rules/markets."
+)
 MarketOpt = typer.Option("us,eu", "--market", "-m", help="Comma-separated market codes: us, eu, uk, ca, anz, codex.")
 
 
@@ -57,15 +63,15 @@ def friendly(fn):
     return wrapper
 
 
-def _load(formula: Path, library: Optional[Path]):
+def _load(formula: Path, library: Path | None):
     """The ingredient library and the validated formula of a command."""
     lib = _library(formula, library)
     return lib, load_formula(formula, lib)
 
 
-def _library(formula: Path, library: Optional[Path]):
+def _library(formula: Path, library: Path | None):
     if not formula.exists():
-        from .errors import InputError, Problem
+        from labelcalc.errors import InputError, Problem
 
         raise InputError(Problem("file not found", file=str(formula), fix="check the path"))
     return load_library(library or find_library(formula))
@@ -78,7 +84,7 @@ def _energy_sets() -> list[str]:
 
 def compose_document(formula, comps) -> dict:
     """The documented JSON form of ``labelcalc compose`` (see README)."""
-    from . import components as C
+    from labelcalc.formulation import components as C
 
     sets = [load_factor_set(i) for i in _energy_sets()]
     serving = formula.serving_grams()
@@ -89,35 +95,63 @@ def compose_document(formula, comps) -> dict:
             e = energy_of(c, fs)
             energies[fs.id] = {
                 "kind": "available" if fs.id == "available" else "declared basis",
-                "kj_per_100g": e.kj, "kcal_per_100g": e.kcal,
-                "kj_per_serving": e.per_serving(serving)[0], "kcal_per_serving": e.per_serving(serving)[1],
+                "kj_per_100g": e.kj,
+                "kcal_per_100g": e.kcal,
+                "kj_per_serving": e.per_serving(serving)[0],
+                "kcal_per_serving": e.per_serving(serving)[1],
                 "by_component_kcal_per_100g": e.by_component_kcal,
                 "by_line_kcal_per_100g": {lab: kc for lab, _, kc in energy_by_line(c, fs)},
-                "unknown_because": e.unknown_because, "reviews": [r.strip() for r in e.reviews],
+                "unknown_because": e.unknown_because,
+                "reviews": [r.strip() for r in e.reviews],
                 "source": f"{fs.factor_set.instrument}, {fs.factor_set.section}",
             }
         labels, rows = c.contributions
-        out.append({
-            "scenario": c.scenario,
-            "batch_g": c.batch_grams,
-            "finished_g": c.finished_grams,
-            "steps": [{"name": s.name, "water_lost_g": s.water_lost_g, "oil_taken_up_g": s.oil_taken_up_g,
-                       "oil": s.oil_ref, "mass_after_g": s.mass_after_g} for s in c.steps],
-            "per_100g": {k: c.value(k) for k in C.KEYS},
-            "per_serving": {k: c.per_serving(k) for k in C.KEYS} if serving else None,
-            "units": {k: C.BY_KEY[k].unit for k in C.KEYS},
-            "unknown": {k: c.unknown_inputs(k) for k in c.unknown_components},
-            "contributions_per_100g": {lab: {k: (None if row[i] != row[i] else float(row[i]))
-                                             for i, k in enumerate(C.KEYS)} for lab, row in zip(labels, rows)},
-            "energy": energies,
-        })
+        out.append(
+            {
+                "scenario": c.scenario,
+                "batch_g": c.batch_grams,
+                "finished_g": c.finished_grams,
+                "steps": [
+                    {
+                        "name": s.name,
+                        "water_lost_g": s.water_lost_g,
+                        "oil_taken_up_g": s.oil_taken_up_g,
+                        "oil": s.oil_ref,
+                        "mass_after_g": s.mass_after_g,
+                    }
+                    for s in c.steps
+                ],
+                "per_100g": {k: c.value(k) for k in C.KEYS},
+                "per_serving": {k: c.per_serving(k) for k in C.KEYS} if serving else None,
+                "units": {k: C.BY_KEY[k].unit for k in C.KEYS},
+                "unknown": {k: c.unknown_inputs(k) for k in c.unknown_components},
+                "contributions_per_100g": {
+                    lab: {k: (None if row[i] != row[i] else float(row[i])) for i, k in enumerate(C.KEYS)}
+                    for lab, row in zip(labels, rows)
+                },
+                "energy": energies,
+            }
+        )
     return {
-        "product": {"id": formula.id, "name": formula.header.name, "version": formula.header.version,
-                    "file": formula.file, "content_hash": formula.content_hash,
-                    "serving_g": serving, "fried": formula.is_fried, "has_range": formula.has_range},
+        "product": {
+            "id": formula.id,
+            "name": formula.header.name,
+            "version": formula.header.version,
+            "file": formula.file,
+            "content_hash": formula.content_hash,
+            "serving_g": serving,
+            "fried": formula.is_fried,
+            "has_range": formula.has_range,
+        },
         "scenarios": out,
-        "notes": (["Fried product: oil uptake and moisture loss are estimates; laboratory analysis of fat and moisture is "
-                   "the usual confirmation."] if formula.is_fried else []),
+        "notes": (
+            [
+                "Fried product: oil uptake and moisture loss are estimates; laboratory analysis of fat and moisture is "
+                "the usual confirmation."
+            ]
+            if formula.is_fried
+            else []
+        ),
         "draft_notice": "DRAFT — verify against current local regulation and a qualified regulatory professional.",
     }
 
@@ -126,7 +160,7 @@ def compose_document(formula, comps) -> dict:
 @friendly
 def compose_cmd(
     formula: Path = typer.Argument(..., help="Formula file (YAML)."),
-    library: Optional[Path] = LibraryOpt,
+    library: Path | None = LibraryOpt,
     as_json: bool = JsonOpt,
 ):
     """Finished-product composition per 100 g and per serving, with available and declared-basis energy."""
@@ -145,8 +179,8 @@ def compose_cmd(
 def declare_cmd(
     formula: Path = typer.Argument(..., help="Formula file (YAML)."),
     market: str = MarketOpt,
-    library: Optional[Path] = LibraryOpt,
-    rules: Optional[Path] = RulesOpt,
+    library: Path | None = LibraryOpt,
+    rules: Path | None = RulesOpt,
     as_json: bool = JsonOpt,
 ):
     """Each market's declared values: rows, rounding, reference values, columns."""
@@ -155,8 +189,10 @@ def declare_cmd(
     comps = compose(f, lib)
     decls = [declare(c, p) for p in packs for c in comps]  # all computed before anything is printed
     if as_json:
-        doc = {"product": {"id": f.id, "name": f.header.name, "version": f.header.version, "content_hash": f.content_hash},
-               "declarations": [declaration_dict(d) for d in decls]}
+        doc = {
+            "product": {"id": f.id, "name": f.header.name, "version": f.header.version, "content_hash": f.content_hash},
+            "declarations": [declaration_dict(d) for d in decls],
+        }
         typer.echo(json.dumps(doc, indent=2, ensure_ascii=False, default=str))
     else:
         typer.echo(declare_text(decls))
@@ -167,18 +203,20 @@ def _reference(f, lib, packs):
     ref = f.header.reference_formula
     if not ref:
         return None
-    from .formula import FormulaIndex
+    from labelcalc.intake.formula import FormulaIndex
 
     index = FormulaIndex([Path(f.file).resolve().parent])
     path = index.paths.get(ref) or (Path(f.file).resolve().parent / ref)
     if not Path(path).exists():
-        raise LabelError(f"{f.file}: reference_formula '{ref}' not found (give a product id in the same folder or a path)")
+        raise LabelError(
+            f"{f.file}: reference_formula '{ref}' not found (give a product id in the same folder or a path)"
+        )
     rf = load_formula(path, lib)
     return compose(rf, lib)
 
 
 def assessments(f, lib, packs):
-    from .assess import assess_against
+    from labelcalc.labelling.assess import assess_against
 
     comps = compose(f, lib)
     ref = _reference(f, lib, packs)
@@ -190,19 +228,21 @@ def assessments(f, lib, packs):
 def assess_cmd(
     formula: Path = typer.Argument(..., help="Formula file (YAML)."),
     market: str = MarketOpt,
-    library: Optional[Path] = LibraryOpt,
-    rules: Optional[Path] = RulesOpt,
+    library: Path | None = LibraryOpt,
+    rules: Path | None = RulesOpt,
     as_json: bool = JsonOpt,
 ):
     """Claims, required statements, allergens, ingredient list and front-of-pack verdicts, each with its figures and citation."""
-    from .assess_json import assessment_dict
-    from .textreport import assess_text
+    from labelcalc.outputs.assess_json import assessment_dict
+    from labelcalc.outputs.textreport import assess_text
 
     lib, f = _load(formula, library)
     items = assessments(f, lib, get_packs(market.split(","), rules))
     if as_json:
-        doc = {"product": {"id": f.id, "name": f.header.name, "content_hash": f.content_hash},
-               "assessments": [assessment_dict(a) for a in items]}
+        doc = {
+            "product": {"id": f.id, "name": f.header.name, "content_hash": f.content_hash},
+            "assessments": [assessment_dict(a) for a in items],
+        }
         typer.echo(json.dumps(doc, indent=2, ensure_ascii=False, default=str))
     else:
         typer.echo(assess_text(items))
@@ -214,14 +254,16 @@ def panel_cmd(
     formula: Path = typer.Argument(..., help="Formula file (YAML)."),
     market: str = MarketOpt,
     out: Path = typer.Option(Path("labelcalc-out/panels"), "--out", "-o", help="Output folder."),
-    library: Optional[Path] = LibraryOpt,
-    rules: Optional[Path] = RulesOpt,
-    date: Optional[str] = typer.Option(None, "--date", help="Date printed on the drafts (YYYY-MM-DD); default today. Fix it for byte-identical output."),
+    library: Path | None = LibraryOpt,
+    rules: Path | None = RulesOpt,
+    date: str | None = typer.Option(
+        None, "--date", help="Date printed on the drafts (YYYY-MM-DD); default today. Fix it for byte-identical output."
+    ),
 ):
     """Panel draft PDFs (one per market) with the calculation sheet (PDF pages and CSV)."""
     from datetime import date as _date
 
-    from .panelrun import panels_for
+    from labelcalc.outputs.panelrun import panels_for
 
     lib = _library(formula, library)
     packs = get_packs(market.split(","), rules)
@@ -236,13 +278,15 @@ def panel_cmd(
         raise typer.Exit(1)
 
 
-PricesOpt = typer.Option(None, "--prices", help="Price file (YAML: prices: {ingredient: {per_kg, currency}}); overrides library prices.")
+PricesOpt = typer.Option(
+    None, "--prices", help="Price file (YAML: prices: {ingredient: {per_kg, currency}}); overrides library prices."
+)
 
 
 def _prices(path):
     if path is None:
         return None
-    from .costing import load_prices
+    from labelcalc.whatif.costing import load_prices
 
     return load_prices(path)
 
@@ -254,15 +298,17 @@ def _pct(a, b):
 @app.command("compare")
 @friendly
 def compare_cmd(
-    formulas: list[Path] = typer.Argument(..., help="Two or more formula files; the first is the basis of the differences."),
+    formulas: list[Path] = typer.Argument(
+        ..., help="Two or more formula files; the first is the basis of the differences."
+    ),
     market: str = MarketOpt,
-    library: Optional[Path] = LibraryOpt,
-    rules: Optional[Path] = RulesOpt,
-    prices: Optional[Path] = PricesOpt,
+    library: Path | None = LibraryOpt,
+    rules: Path | None = RulesOpt,
+    prices: Path | None = PricesOpt,
     as_json: bool = JsonOpt,
 ):
     """Formulas side by side: energy, declared values, claims gained or lost, statements, cost."""
-    from .whatif import figures
+    from labelcalc.whatif.explore import figures
 
     if len(formulas) < 2:
         raise LabelError("compare needs at least two formula files")
@@ -275,42 +321,83 @@ def compare_cmd(
     doc = []
     for f, fp in zip(loaded, pts):
         for p, b in zip(fp, base):
-            doc.append({
-                "formula": f.id, "market": p.market, "scenario": p.scenario,
-                "available_kcal_per_serving": p.available_kcal_per_serving, "declared_kcal_per_serving": p.declared_kcal_per_serving,
-                "available_kcal_per_100g": p.available_kcal_per_100g, "declared_kcal_per_100g": p.declared_kcal_per_100g,
-                "change_available_kcal_per_serving": None if p.available_kcal_per_serving is None or b.available_kcal_per_serving is None
-                else p.available_kcal_per_serving - b.available_kcal_per_serving,
-                "change_available_percent": _pct(p.available_kcal_per_serving, b.available_kcal_per_serving),
-                "change_declared_percent": _pct(p.declared_kcal_per_serving, b.declared_kcal_per_serving),
-                "declared": p.declared,
-                "declared_changed": {k: [b.declared.get(k), v] for k, v in p.declared.items() if b.declared.get(k) != v},
-                "claims_gained": sorted(set(p.claims) - set(b.claims)), "claims_lost": sorted(set(b.claims) - set(p.claims)),
-                "statements_added": sorted(set(p.statements) - set(b.statements)),
-                "statements_removed": sorted(set(b.statements) - set(p.statements)),
-                "cost_per_serving": p.cost_per_serving, "cost_per_kg": p.cost_per_kg, "currency": p.currency,
-                "cost_change_per_serving": None if p.cost_per_serving is None or b.cost_per_serving is None
-                else p.cost_per_serving - b.cost_per_serving,
-                "cost_per_kcal_saved_per_serving": _cost_per_kcal(p, b),
-                "missing_prices": p.extra["missing_prices"],
-            })
+            doc.append(
+                {
+                    "formula": f.id,
+                    "market": p.market,
+                    "scenario": p.scenario,
+                    "available_kcal_per_serving": p.available_kcal_per_serving,
+                    "declared_kcal_per_serving": p.declared_kcal_per_serving,
+                    "available_kcal_per_100g": p.available_kcal_per_100g,
+                    "declared_kcal_per_100g": p.declared_kcal_per_100g,
+                    "change_available_kcal_per_serving": None
+                    if p.available_kcal_per_serving is None or b.available_kcal_per_serving is None
+                    else p.available_kcal_per_serving - b.available_kcal_per_serving,
+                    "change_available_percent": _pct(p.available_kcal_per_serving, b.available_kcal_per_serving),
+                    "change_declared_percent": _pct(p.declared_kcal_per_serving, b.declared_kcal_per_serving),
+                    "declared": p.declared,
+                    "declared_changed": {
+                        k: [b.declared.get(k), v] for k, v in p.declared.items() if b.declared.get(k) != v
+                    },
+                    "claims_gained": sorted(set(p.claims) - set(b.claims)),
+                    "claims_lost": sorted(set(b.claims) - set(p.claims)),
+                    "statements_added": sorted(set(p.statements) - set(b.statements)),
+                    "statements_removed": sorted(set(b.statements) - set(p.statements)),
+                    "cost_per_serving": p.cost_per_serving,
+                    "cost_per_kg": p.cost_per_kg,
+                    "currency": p.currency,
+                    "cost_change_per_serving": None
+                    if p.cost_per_serving is None or b.cost_per_serving is None
+                    else p.cost_per_serving - b.cost_per_serving,
+                    "cost_per_kcal_saved_per_serving": _cost_per_kcal(p, b),
+                    "missing_prices": p.extra["missing_prices"],
+                }
+            )
     if as_json:
-        typer.echo(json.dumps({"compared": [f.id for f in loaded], "basis": loaded[0].id, "rows": doc}, indent=2, default=str))
+        typer.echo(
+            json.dumps({"compared": [f.id for f in loaded], "basis": loaded[0].id, "rows": doc}, indent=2, default=str)
+        )
         return
-    from .textreport import num, table
+    from labelcalc.outputs.textreport import num, table
 
-    rows = [[r["formula"], r["market"], r["scenario"], num(r["available_kcal_per_serving"], 1), num(r["declared_kcal_per_serving"], 1),
-             num(r["change_available_percent"], 1) + " %" if r["change_available_percent"] is not None else "-",
-             (f"{r['cost_per_serving']:.4f} {r['currency']}" if r["cost_per_serving"] is not None else "unknown"),
-             " ".join([f"+{c}" for c in r["claims_gained"]] + [f"-{c}" for c in r["claims_lost"]]),
-             " ".join([f"+{c}" for c in r["statements_added"]] + [f"-{c}" for c in r["statements_removed"]])] for r in doc]
+    rows = [
+        [
+            r["formula"],
+            r["market"],
+            r["scenario"],
+            num(r["available_kcal_per_serving"], 1),
+            num(r["declared_kcal_per_serving"], 1),
+            num(r["change_available_percent"], 1) + " %" if r["change_available_percent"] is not None else "-",
+            (f"{r['cost_per_serving']:.4f} {r['currency']}" if r["cost_per_serving"] is not None else "unknown"),
+            " ".join([f"+{c}" for c in r["claims_gained"]] + [f"-{c}" for c in r["claims_lost"]]),
+            " ".join([f"+{c}" for c in r["statements_added"]] + [f"-{c}" for c in r["statements_removed"]]),
+        ]
+        for r in doc
+    ]
     typer.echo(f"Compared with {loaded[0].id} (energy per serving in kcal; DRAFT figures)")
-    typer.echo(table(["formula", "market", "scenario", "available", "declared", "available vs basis", "cost/serving",
-                      "claims", "statements"], rows, "lllrrrrll"))
+    typer.echo(
+        table(
+            [
+                "formula",
+                "market",
+                "scenario",
+                "available",
+                "declared",
+                "available vs basis",
+                "cost/serving",
+                "claims",
+                "statements",
+            ],
+            rows,
+            "lllrrrrll",
+        )
+    )
     for r in doc:
         if r["declared_changed"] and r["formula"] != loaded[0].id:
-            typer.echo(f"{r['formula']} [{r['market']}, {r['scenario']}]: " + "; ".join(
-                f"{k} {a} -> {b}" for k, (a, b) in r["declared_changed"].items()))
+            typer.echo(
+                f"{r['formula']} [{r['market']}, {r['scenario']}]: "
+                + "; ".join(f"{k} {a} -> {b}" for k, (a, b) in r["declared_changed"].items())
+            )
 
 
 def _cost_per_kcal(p, b):
@@ -334,16 +421,18 @@ def sweep_cmd(
     stop: float = typer.Option(100, "--to", help="Last replacement level [%]."),
     step: float = typer.Option(10, "--step", help="Step between levels [%]."),
     market: str = MarketOpt,
-    out: Path = typer.Option(Path("labelcalc-out/sweeps"), "--out", "-o", help="Output folder for CSV, JSON and the chart."),
-    library: Optional[Path] = LibraryOpt,
-    rules: Optional[Path] = RulesOpt,
-    prices: Optional[Path] = PricesOpt,
+    out: Path = typer.Option(
+        Path("labelcalc-out/sweeps"), "--out", "-o", help="Output folder for CSV, JSON and the chart."
+    ),
+    library: Path | None = LibraryOpt,
+    rules: Path | None = RulesOpt,
+    prices: Path | None = PricesOpt,
 ):
     """Replace a share of one ingredient by another, step by step: energy, declared values, claims, statements, cost, and a chart."""
-    from .charts import sweep_chart, sweep_series
-    from .rangerun import write_csv, write_json
-    from .safenames import inside, safe_name
-    from .whatif import first_levels, sweep
+    from labelcalc.files import inside, safe_name
+    from labelcalc.outputs.charts import sweep_chart, sweep_series
+    from labelcalc.ranges.rangerun import write_csv, write_json
+    from labelcalc.whatif.explore import first_levels, sweep
 
     if step <= 0 or stop < start:
         raise LabelError("--step must be above 0 and --to at least --from")
@@ -362,30 +451,71 @@ def sweep_cmd(
     for lvl, pts in rows:
         for p in pts:
             b = base_cost[(p.market, p.scenario)]
-            table_rows.append({"level_percent": lvl, "market": p.market, "scenario": p.scenario,
-                               "available_kcal_per_serving": p.available_kcal_per_serving,
-                               "declared_kcal_per_serving": p.declared_kcal_per_serving,
-                               "available_kcal_per_100g": p.available_kcal_per_100g,
-                               "declared_kcal_per_100g": p.declared_kcal_per_100g,
-                               "cost_per_serving": p.cost_per_serving, "currency": p.currency,
-                               "cost_per_kcal_saved_per_serving": _cost_per_kcal(p, b),
-                               "claims_eligible": "; ".join(p.claims), "statements_required": "; ".join(p.statements),
-                               "front_of_pack": "; ".join(f"{k}={v}" for k, v in p.front_of_pack.items()),
-                               **{f"declared:{k}": v for k, v in p.declared.items()}})
+            table_rows.append(
+                {
+                    "level_percent": lvl,
+                    "market": p.market,
+                    "scenario": p.scenario,
+                    "available_kcal_per_serving": p.available_kcal_per_serving,
+                    "declared_kcal_per_serving": p.declared_kcal_per_serving,
+                    "available_kcal_per_100g": p.available_kcal_per_100g,
+                    "declared_kcal_per_100g": p.declared_kcal_per_100g,
+                    "cost_per_serving": p.cost_per_serving,
+                    "currency": p.currency,
+                    "cost_per_kcal_saved_per_serving": _cost_per_kcal(p, b),
+                    "claims_eligible": "; ".join(p.claims),
+                    "statements_required": "; ".join(p.statements),
+                    "front_of_pack": "; ".join(f"{k}={v}" for k, v in p.front_of_pack.items()),
+                    **{f"declared:{k}": v for k, v in p.declared.items()},
+                }
+            )
     out.mkdir(parents=True, exist_ok=True)
     stem = safe_name(f"{f.id}.{replace}-to-{with_}")
     csvp, jsonp = inside(out, stem + ".csv"), inside(out, stem + ".json")
     write_csv(csvp, table_rows)
-    write_json(jsonp, {"formula": f.id, "replace": replace, "with": with_, "levels": levels, "rows": table_rows,
-                       "first_levels": firsts, "chart_series": sweep_series(rows)})
-    charts = sweep_chart(rows, firsts, f"{f.header.name}: {replace} replaced by {with_}", replace, with_, inside(out, stem + ".chart"))
-    from .textreport import num, table
+    write_json(
+        jsonp,
+        {
+            "formula": f.id,
+            "replace": replace,
+            "with": with_,
+            "levels": levels,
+            "rows": table_rows,
+            "first_levels": firsts,
+            "chart_series": sweep_series(rows),
+        },
+    )
+    charts = sweep_chart(
+        rows, firsts, f"{f.header.name}: {replace} replaced by {with_}", replace, with_, inside(out, stem + ".chart")
+    )
+    from labelcalc.outputs.textreport import num, table
 
-    typer.echo(table(["level %", "market", "scenario", "available kcal/serving", "declared kcal/serving", "cost/serving", "claims"],
-                     [[f"{r['level_percent']:g}", r["market"], r["scenario"], num(r["available_kcal_per_serving"], 1),
-                       num(r["declared_kcal_per_serving"], 1),
-                       "unknown" if r["cost_per_serving"] is None else f"{r['cost_per_serving']:.4f} {r['currency']}",
-                       r["claims_eligible"]] for r in table_rows], "lllrrrl"))
+    typer.echo(
+        table(
+            [
+                "level %",
+                "market",
+                "scenario",
+                "available kcal/serving",
+                "declared kcal/serving",
+                "cost/serving",
+                "claims",
+            ],
+            [
+                [
+                    f"{r['level_percent']:g}",
+                    r["market"],
+                    r["scenario"],
+                    num(r["available_kcal_per_serving"], 1),
+                    num(r["declared_kcal_per_serving"], 1),
+                    "unknown" if r["cost_per_serving"] is None else f"{r['cost_per_serving']:.4f} {r['currency']}",
+                    r["claims_eligible"],
+                ]
+                for r in table_rows
+            ],
+            "lllrrrl",
+        )
+    )
     for k, v in sorted(firsts.items(), key=lambda kv: kv[1]):
         typer.echo(f"from {v:g} %: {k}")
     for p in (csvp, jsonp, *charts):
@@ -398,31 +528,41 @@ def target_cmd(
     formula: Path = typer.Argument(..., help="Formula file (YAML)."),
     replace: str = ReplaceOpt,
     with_: str = WithOpt,
-    claim: str = typer.Option(..., "--claim", help="Claim id of the market's pack (see 'labelcalc rules show MARKET')."),
+    claim: str = typer.Option(
+        ..., "--claim", help="Claim id of the market's pack (see 'labelcalc rules show MARKET')."
+    ),
     market: str = typer.Option(..., "--market", "-m", help="One market code."),
     tolerance: float = typer.Option(0.01, "--tolerance", help="Precision of the level [percentage points]."),
-    library: Optional[Path] = LibraryOpt,
-    rules: Optional[Path] = RulesOpt,
-    prices: Optional[Path] = PricesOpt,
+    library: Path | None = LibraryOpt,
+    rules: Path | None = RulesOpt,
+    prices: Path | None = PricesOpt,
 ):
     """The smallest replacement level that makes a claim eligible, with the resulting declaration and cost."""
-    from .assess import claim_key
-    from .whatif import find_target
+    from labelcalc.labelling.assess import claim_key
+    from labelcalc.whatif.explore import find_target
 
     lib = _library(formula, library)
     (pack,) = get_packs([market], rules)
     f = load_formula(formula, lib)
     ref = _reference(f, lib, [pack]) or compose(f, lib)
-    t = find_target(f, lib, pack, replace, with_, claim_key(claim), tolerance=tolerance, prices=_prices(prices), reference=ref)
+    t = find_target(
+        f, lib, pack, replace, with_, claim_key(claim), tolerance=tolerance, prices=_prices(prices), reference=ref
+    )
     typer.echo(f"{f.header.name} [{market}] — claim '{claim}' by replacing {replace} with {with_}: {t.note}")
     if not t.reachable:
         for b in t.blocking:
             typer.echo(f"  blocked by: {b}")
         raise typer.Exit(1)
     for p in t.points:
-        typer.echo(f"  [{p.scenario}] available {p.available_kcal_per_serving:.1f} kcal/serving, declared "
-                   f"{p.declared_kcal_per_serving:.1f} kcal/serving"
-                   + (f", cost {p.cost_per_serving:.4f} {p.currency}/serving" if p.cost_per_serving is not None else ", cost unknown"))
+        typer.echo(
+            f"  [{p.scenario}] available {p.available_kcal_per_serving:.1f} kcal/serving, declared "
+            f"{p.declared_kcal_per_serving:.1f} kcal/serving"
+            + (
+                f", cost {p.cost_per_serving:.4f} {p.currency}/serving"
+                if p.cost_per_serving is not None
+                else ", cost unknown"
+            )
+        )
         typer.echo("    declared: " + "; ".join(f"{k} {v}" for k, v in p.declared.items()))
     typer.echo("Reference for the comparison: " + (f.header.reference_formula or f"the formula itself at 0 % ({f.id})"))
     typer.echo("DRAFT: verify against current local regulation with a qualified regulatory professional.")
@@ -434,17 +574,19 @@ def verify_cmd(
     formula: Path = typer.Argument(..., help="Formula file (YAML)."),
     lab: Path = typer.Option(..., "--lab", help="Laboratory certificate (YAML or CSV)."),
     market: str = MarketOpt,
-    margin: float = typer.Option(5.0, "--margin", help="Flag figures within this % of the declared value from a limit."),
+    margin: float = typer.Option(
+        5.0, "--margin", help="Flag figures within this % of the declared value from a limit."
+    ),
     force: bool = typer.Option(False, "--force", help="Compare even if the certificate names another product id."),
-    library: Optional[Path] = LibraryOpt,
-    rules: Optional[Path] = RulesOpt,
+    library: Path | None = LibraryOpt,
+    rules: Path | None = RulesOpt,
     as_json: bool = JsonOpt,
 ):
     """Each declared figure against the lab's analysed value under the market's compliance rule."""
     from dataclasses import asdict
 
-    from .lab import load_lab
-    from .verify import verify
+    from labelcalc.lab.certificates import load_lab
+    from labelcalc.lab.verify import verify
 
     lib, f = _load(formula, library)
     cert = load_lab(lab)
@@ -456,19 +598,42 @@ def verify_cmd(
     if as_json:
         typer.echo(json.dumps([{"scenario": s, **asdict(r)} for s, r in reports], indent=2, default=str))
         return
-    from .textreport import num, table
+    from labelcalc.outputs.textreport import num, table
 
     c0 = cert.certificate
-    typer.echo(f"Certificate {c0.reference or '-'} from {c0.lab or '-'} ({c0.sample_date or 'no date'}; {c0.samples or 'sampling not stated'})")
+    typer.echo(
+        f"Certificate {c0.reference or '-'} from {c0.lab or '-'} ({c0.sample_date or 'no date'}; {c0.samples or 'sampling not stated'})"
+    )
     for scen, r in reports:
-        typer.echo(f"\n{r.market} — {f.header.name}" + ("" if scen == "nominal" else f" — declaration at the {scen} end of the ranges"))
-        rows = [[x.label, x.basis.replace("_", " "), x.declared, num(x.analysed, 2),
-                 f"{num(x.allowed[0], 2) if x.allowed[0] is not None else '-'} .. {num(x.allowed[1], 2) if x.allowed[1] is not None else '-'}",
-                 x.verdict.upper() if x.verdict != "within" else "within", x.revised or "", x.rule] for x in r.rows]
-        typer.echo(table(["row", "basis", "declared", "analysed", "allowed", "verdict", "would declare", "rule"], rows, "llrrrlll"))
+        typer.echo(
+            f"\n{r.market} — {f.header.name}"
+            + ("" if scen == "nominal" else f" — declaration at the {scen} end of the ranges")
+        )
+        rows = [
+            [
+                x.label,
+                x.basis.replace("_", " "),
+                x.declared,
+                num(x.analysed, 2),
+                f"{num(x.allowed[0], 2) if x.allowed[0] is not None else '-'} .. {num(x.allowed[1], 2) if x.allowed[1] is not None else '-'}",
+                x.verdict.upper() if x.verdict != "within" else "within",
+                x.revised or "",
+                x.rule,
+            ]
+            for x in r.rows
+        ]
+        typer.echo(
+            table(
+                ["row", "basis", "declared", "analysed", "allowed", "verdict", "would declare", "rule"],
+                rows,
+                "llrrrlll",
+            )
+        )
         for x in r.rows:
             if x.verdict != "within":
-                typer.echo(f"  {x.label}: {x.risk or ''} — {x.citation}" + (f"; {'; '.join(x.notes)}" if x.notes else ""))
+                typer.echo(
+                    f"  {x.label}: {x.risk or ''} — {x.citation}" + (f"; {'; '.join(x.notes)}" if x.notes else "")
+                )
         if r.not_declared:
             typer.echo("  reported by the lab, not on this label: " + ", ".join(r.not_declared))
         typer.echo("  " + r.summary)
@@ -480,13 +645,18 @@ def verify_cmd(
 def calibrate_cmd(
     formula: Path = typer.Argument(..., help="Formula file (YAML)."),
     lab: Path = typer.Option(..., "--lab", help="Laboratory certificate with moisture (and fat for a fried product)."),
-    out: Path = typer.Option(Path("labelcalc-out/calibrated"), "--out", "-o", help="Folder for the updated formula files (originals are never changed)."),
+    out: Path = typer.Option(
+        Path("labelcalc-out/calibrated"),
+        "--out",
+        "-o",
+        help="Folder for the updated formula files (originals are never changed).",
+    ),
     force: bool = typer.Option(False, "--force", help="Use a certificate that names another product id."),
-    library: Optional[Path] = LibraryOpt,
+    library: Path | None = LibraryOpt,
 ):
     """Solve for the moisture loss and oil uptake that reproduce the lab's moisture and fat, and write an updated formula."""
-    from .calibrate import calibrate, write_calibrated
-    from .lab import load_lab
+    from labelcalc.lab.calibrate import calibrate, write_calibrated
+    from labelcalc.lab.certificates import load_lab
 
     lib, f = _load(formula, library)
     cal = calibrate(f, lib, load_lab(lab), force=force)
@@ -495,13 +665,17 @@ def calibrate_cmd(
     typer.echo(f"  water after the step: {cal.final_water:.2f} g/100 g" + rng(cal.water_range))
     if cal.oil_per_100g is not None:
         typer.echo(f"  oil uptake: {cal.oil_per_100g:.2f} g per 100 g after the step" + rng(cal.oil_range))
-    typer.echo(f"  reproduces: water {cal.reproduced['water']:.3f} g/100 g, total lipid {cal.reproduced['total_lipid']:.3f} g/100 g")
+    typer.echo(
+        f"  reproduces: water {cal.reproduced['water']:.3f} g/100 g, total lipid {cal.reproduced['total_lipid']:.3f} g/100 g"
+    )
     for n in cal.notes:
         typer.echo(f"  note: {n}")
     files = write_calibrated(f, cal, out)
     for p in files:
         typer.echo(f"wrote {p}")
-    typer.echo(f"Use it with: labelcalc compose {files[0]} --library {lib.files[0].rsplit('/', 1)[0] if lib.files else 'LIBRARY'}")
+    typer.echo(
+        f"Use it with: labelcalc compose {files[0]} --library {lib.files[0].rsplit('/', 1)[0] if lib.files else 'LIBRARY'}"
+    )
 
 
 @app.command("range")
@@ -509,10 +683,12 @@ def range_cmd(
     source: Path = typer.Argument(..., help="Folder of formula files, or a .csv/.xlsx sheet (one row per batch line)."),
     market: str = MarketOpt,
     out: Path = typer.Option(Path("labelcalc-out"), "--out", "-o", help="Output folder for the summary tables."),
-    library: Optional[Path] = LibraryOpt,
-    rules: Optional[Path] = RulesOpt,
+    library: Path | None = LibraryOpt,
+    rules: Path | None = RulesOpt,
     jobs: int = typer.Option(1, "--jobs", "-j", min=1, help="Parallel worker processes."),
-    register: Optional[Path] = typer.Option(None, "--register", help="Label register file (SQLite). Default: OUT/label-register.sqlite."),
+    register: Path | None = typer.Option(
+        None, "--register", help="Label register file (SQLite). Default: OUT/label-register.sqlite."
+    ),
     no_register: bool = typer.Option(False, "--no-register", help="Do not compare with or update the label register."),
     panels: bool = typer.Option(False, "--panels", help="Also write panel drafts (PDF) and calculation sheets."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No progress bar."),
@@ -520,7 +696,7 @@ def range_cmd(
     """Declare every product of a range for every market: summary table (CSV, XLSX, JSON), errors table and label register.
 
     Exit code 0: every product produced; 1: some products failed (see errors.csv); 2: the run could not start."""
-    from .rangerun import run_range, write_outputs
+    from labelcalc.ranges.rangerun import run_range, write_outputs
 
     try:
         lib_path = library or find_library(source if source.is_dir() else source.parent / "x")
@@ -528,37 +704,49 @@ def range_cmd(
         get_packs(markets, rules)
         progress, stop = _progress(quiet)
         try:
-            result = run_range(source, lib_path, markets, rules, jobs=jobs, progress=progress, with_labels=not no_register)
+            result = run_range(
+                source, lib_path, markets, rules, jobs=jobs, progress=progress, with_labels=not no_register
+            )
         finally:
             stop()
         changes = None
         if not no_register:
-            from .register import Register
+            from labelcalc.ranges.register import Register
 
             reg = Register(register or out / "label-register.sqlite")
             changes = reg.compare_and_record(result.labels)
             reg.close()
         files = write_outputs(out, result, changes)
         if panels:
-            from .panelrun import write_panels
+            from labelcalc.outputs.panelrun import write_panels
 
             files += write_panels(source, lib_path, markets, rules, out, jobs=jobs)
     except LabelError as exc:
         typer.echo(f"error: {exc}", err=True)
         raise typer.Exit(2) from None
     n_ok, n_bad = result.products_ok, result.products_failed
-    typer.echo(f"{n_ok} product(s) labelled for {', '.join(markets)}; {n_bad} failed"
-               + (f" (see {out / 'errors.csv'})" if n_bad or result.errors else ""))
+    typer.echo(
+        f"{n_ok} product(s) labelled for {', '.join(markets)}; {n_bad} failed"
+        + (f" (see {out / 'errors.csv'})" if n_bad or result.errors else "")
+    )
     if changes is not None:
         counts = {s: sum(1 for c in changes if c["status"] == s) for s in ("new", "changed", "unchanged")}
-        typer.echo(f"label register: {counts['new']} new, {counts['changed']} changed, {counts['unchanged']} unchanged"
-                   + (f" (see {out / 'changes.csv'})" if counts["changed"] else ""))
+        typer.echo(
+            f"label register: {counts['new']} new, {counts['changed']} changed, {counts['unchanged']} unchanged"
+            + (f" (see {out / 'changes.csv'})" if counts["changed"] else "")
+        )
         for c in changes:
             if c["status"] == "changed":
-                typer.echo(f"  changed: {c['product_id']} [{c['market']}, {c['scenario']}]: {c['what_moved']} — because {c['why'] or 'see formula'}")
-    from .errors import display_path
+                typer.echo(
+                    f"  changed: {c['product_id']} [{c['market']}, {c['scenario']}]: {c['what_moved']} — because {c['why'] or 'see formula'}"
+                )
+    from labelcalc.errors import display_path
 
-    typer.echo("wrote " + ", ".join(display_path(f) for f in files[:6]) + (f" and {len(files) - 6} more" if len(files) > 6 else ""))
+    typer.echo(
+        "wrote "
+        + ", ".join(display_path(f) for f in files[:6])
+        + (f" and {len(files) - 6} more" if len(files) > 6 else "")
+    )
     typer.echo("DRAFT figures: verify against current local regulation with a qualified regulatory professional.")
     if result.errors:
         raise typer.Exit(1)
@@ -570,8 +758,14 @@ def _progress(quiet: bool):
         return None, lambda: None
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
 
-    bar = Progress(TextColumn("labelling"), BarColumn(), MofNCompleteColumn(),
-                   TextColumn("{task.fields[rate]} products/s"), TimeRemainingColumn(), transient=True)
+    bar = Progress(
+        TextColumn("labelling"),
+        BarColumn(),
+        MofNCompleteColumn(),
+        TextColumn("{task.fields[rate]} products/s"),
+        TimeRemainingColumn(),
+        transient=True,
+    )
     task = bar.add_task("range", total=None, rate="-")
     bar.start()
 
@@ -586,11 +780,11 @@ def _progress(quiet: bool):
 @friendly
 def register_cmd(
     db: Path = typer.Option(Path("labelcalc-out/label-register.sqlite"), "--db", help="Label register file."),
-    export: Optional[Path] = typer.Option(None, "--export", help="Write the register to this CSV file."),
+    export: Path | None = typer.Option(None, "--export", help="Write the register to this CSV file."),
 ):
     """List (or export) the labels recorded in the label register."""
-    from .rangerun import write_csv
-    from .register import Register
+    from labelcalc.ranges.rangerun import write_csv
+    from labelcalc.ranges.register import Register
 
     if not db.exists():
         raise LabelError(f"{db}: no label register here — run 'labelcalc range' first or pass --db")
@@ -601,11 +795,26 @@ def register_cmd(
         write_csv(export, rows)
         typer.echo(f"wrote {len(rows)} label(s) to {export}")
         return
-    from .textreport import table
+    from labelcalc.outputs.textreport import table
 
-    typer.echo(table(["product", "market", "scenario", "formula", "allergens", "claims", "recorded"],
-                     [[r["product_id"], r["market"], r["scenario"], r["formula_hash"], r["allergens"], r["claims"],
-                       r["recorded_at"]] for r in rows], "lllllll"))
+    typer.echo(
+        table(
+            ["product", "market", "scenario", "formula", "allergens", "claims", "recorded"],
+            [
+                [
+                    r["product_id"],
+                    r["market"],
+                    r["scenario"],
+                    r["formula_hash"],
+                    r["allergens"],
+                    r["claims"],
+                    r["recorded_at"],
+                ]
+                for r in rows
+            ],
+            "lllllll",
+        )
+    )
 
 
 @app.command("where-used")
@@ -615,7 +824,7 @@ def where_used_cmd(
     db: Path = typer.Option(Path("labelcalc-out/label-register.sqlite"), "--db", help="Label register file."),
 ):
     """Every product and market label that uses an ingredient, directly or through sub-formulas."""
-    from .register import Register
+    from labelcalc.ranges.register import Register
 
     if not db.exists():
         raise LabelError(f"{db}: no label register here — run 'labelcalc range' first or pass --db")
@@ -631,7 +840,7 @@ def where_used_cmd(
 
 @rules_app.command("list")
 @friendly
-def rules_list(rules: Optional[Path] = RulesOpt):
+def rules_list(rules: Path | None = RulesOpt):
     """The markets with a rule pack."""
     for code, p in sorted(load_packs(rules).items()):
         typer.echo(f"{code:6} {p.pack.name} — pack {p.pack.version}, reviewed {p.pack.reviewed}")
@@ -639,17 +848,22 @@ def rules_list(rules: Optional[Path] = RulesOpt):
 
 @rules_app.command("show")
 @friendly
-def rules_show(market: str = typer.Argument(..., help="Market code."), rules: Optional[Path] = RulesOpt):
+def rules_show(market: str = typer.Argument(..., help="Market code."), rules: Path | None = RulesOpt):
     """A pack's rows, rounding rules and reference values with their citations."""
     (p,) = get_packs([market], rules)
     typer.echo(f"{p.pack.name} ({p.market}) — pack {p.pack.version}, reviewed {p.pack.reviewed}")
     for ins in p.pack.instruments:
         typer.echo(f"  instrument: {ins.title} ({ins.date})")
-    typer.echo(f"Panel: {p.panel.title}; columns {', '.join(p.panel.bases)}; energy factors {p.panel.energy_factor_set}")
+    typer.echo(
+        f"Panel: {p.panel.title}; columns {', '.join(p.panel.bases)}; energy factors {p.panel.energy_factor_set}"
+    )
     typer.echo("Rows:")
     for r in p.rows:
-        typer.echo(f"  {'  ' * r.indent}{r.label} [{r.nutrient}, {r.requirement}, rounding {r.rounding}"
-                   + (f", % of {r.percent}" if r.percent else "") + f"] — {r.citation} ({r.confidence})")
+        typer.echo(
+            f"  {'  ' * r.indent}{r.label} [{r.nutrient}, {r.requirement}, rounding {r.rounding}"
+            + (f", % of {r.percent}" if r.percent else "")
+            + f"] — {r.citation} ({r.confidence})"
+        )
     typer.echo("Reference values:")
     for k, v in p.reference_values.items():
         typer.echo(f"  {k}: {v.amount:g} {v.unit} — {v.citation} ({v.confidence})")
@@ -672,23 +886,30 @@ def rules_check(file: Path = typer.Argument(..., help="A rule pack file or a fol
 
 @app.command("schema")
 @friendly
-def schema_cmd(out: Path = typer.Option(Path("schemas"), "--out", "-o", help="Folder to write the JSON Schema files into.")):
+def schema_cmd(
+    out: Path = typer.Option(Path("schemas"), "--out", "-o", help="Folder to write the JSON Schema files into."),
+):
     """Write JSON Schema files for formula, ingredient library and rule pack files, for editors to validate with."""
-    from .formula import FormulaFile
-    from .library import Ingredient
-    from .rulepack import RulePack
+    from labelcalc.intake.formula import FormulaFile
+    from labelcalc.intake.library import Ingredient
+    from labelcalc.labelling.rulepack import RulePack
 
     out.mkdir(parents=True, exist_ok=True)
     lib_schema = {
         "$schema": "https://json-schema.org/draft/2020-12/schema",
         "title": "labelcalc ingredient library",
         "type": "object",
-        "properties": {"library": {"type": "object"},
-                       "ingredients": {"type": "object", "additionalProperties": Ingredient.model_json_schema()}},
+        "properties": {
+            "library": {"type": "object"},
+            "ingredients": {"type": "object", "additionalProperties": Ingredient.model_json_schema()},
+        },
         "required": ["ingredients"],
     }
-    files = {"formula.schema.json": FormulaFile.model_json_schema(), "library.schema.json": lib_schema,
-             "rulepack.schema.json": RulePack.model_json_schema()}
+    files = {
+        "formula.schema.json": FormulaFile.model_json_schema(),
+        "library.schema.json": lib_schema,
+        "rulepack.schema.json": RulePack.model_json_schema(),
+    }
     for name, schema in files.items():
         (out / name).write_text(json.dumps(schema, indent=2) + "\n", encoding="utf-8")
         typer.echo(f"wrote {out / name}")

@@ -5,11 +5,11 @@ from __future__ import annotations
 
 import yaml
 
-from labelcalc.assess import assess
-from labelcalc.composition import compose
-from labelcalc.declare import declare
-from labelcalc.formula import load_formula
-from labelcalc.library import load_library
+from labelcalc.formulation.composition import compose
+from labelcalc.intake.formula import load_formula
+from labelcalc.intake.library import load_library
+from labelcalc.labelling.assess import assess
+from labelcalc.labelling.declare import declare
 
 
 def _ingredient(per100: dict, *, name="Test food", kinds=(), allergens=(), substance=None, omit_allergens=False):
@@ -17,12 +17,37 @@ def _ingredient(per100: dict, *, name="Test food", kinds=(), allergens=(), subst
     minerals_mg = sum(body.get(k, 0) for k in ("sodium", "potassium", "calcium", "iron"))
     if minerals_mg and "ash" not in body:
         body["ash"] = minerals_mg / 1000 * 3
-    solids = sum(v for k, v in body.items() if k in (
-        "protein", "fat", "sugars", "starch", "fibre_soluble", "fibre_insoluble", "nonabsorbed_lipid", "sorbitol",
-        "mannitol", "maltitol", "xylitol", "isomalt", "lactitol", "erythritol", "glycerol", "ash"))
+    solids = sum(
+        v
+        for k, v in body.items()
+        if k
+        in (
+            "protein",
+            "fat",
+            "sugars",
+            "starch",
+            "fibre_soluble",
+            "fibre_insoluble",
+            "nonabsorbed_lipid",
+            "sorbitol",
+            "mannitol",
+            "maltitol",
+            "xylitol",
+            "isomalt",
+            "lactitol",
+            "erythritol",
+            "glycerol",
+            "ash",
+        )
+    )
     body.setdefault("water", max(0.0, 100.0 - solids - 0.001))
-    ing = {"label_name": name, "source": "test data (invented round numbers)", "unlisted": "zero", "per_100g": body,
-           "kinds": list(kinds)}
+    ing = {
+        "label_name": name,
+        "source": "test data (invented round numbers)",
+        "unlisted": "zero",
+        "per_100g": body,
+        "kinds": list(kinds),
+    }
     if not omit_allergens:
         ing["allergens"] = list(allergens)
     if substance:
@@ -44,11 +69,25 @@ class Lab:
     def _library(self):
         d = self.dir / "ingredients"
         d.mkdir(exist_ok=True)
-        (d / "lib.yaml").write_text(yaml.safe_dump({"ingredients": self.ingredients}, sort_keys=False), encoding="utf-8")
+        (d / "lib.yaml").write_text(
+            yaml.safe_dump({"ingredients": self.ingredients}, sort_keys=False), encoding="utf-8"
+        )
         return load_library(d)
 
-    def formula(self, fid, batch, *, category="snacks", serving="30 g", sub=False, processing=None, name=None,
-                extra=None, claims=(), label_name=None):
+    def formula(
+        self,
+        fid,
+        batch,
+        *,
+        category="snacks",
+        serving="30 g",
+        sub=False,
+        processing=None,
+        name=None,
+        extra=None,
+        claims=(),
+        label_name=None,
+    ):
         head = {"id": fid, "name": name or f"Test {fid}", **(extra or {})}
         if sub:
             head["label_name"] = label_name or name or f"Test {fid}"
@@ -78,8 +117,9 @@ class Lab:
 def one(lab, per100, *, fid="p", category="snacks", serving="30 g", extra=None, claims=(), **kw):
     """A product of one ingredient (100 g) with the given composition per 100 g."""
     ing = lab.add(f"{fid}_food", per100, **kw)
-    return lab.formula(fid, [{"ingredient": ing, "amount": "100 g"}], category=category, serving=serving, extra=extra,
-                       claims=claims)
+    return lab.formula(
+        fid, [{"ingredient": ing, "amount": "100 g"}], category=category, serving=serving, extra=extra, claims=claims
+    )
 
 
 def verdict(a, claim_id):

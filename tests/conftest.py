@@ -7,7 +7,7 @@ from pathlib import Path
 
 import pytest
 
-from labelcalc.library import load_library
+from labelcalc.intake.library import load_library
 
 ROOT = Path(__file__).resolve().parent.parent
 DEMO = ROOT / "demo_products"

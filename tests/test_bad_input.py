@@ -7,8 +7,8 @@ from typer.testing import CliRunner
 
 from labelcalc.cli import app
 from labelcalc.errors import InputError
-from labelcalc.formula import load_formula
-from labelcalc.library import load_library
+from labelcalc.intake.formula import load_formula
+from labelcalc.intake.library import load_library
 
 runner = CliRunner()
 
@@ -20,67 +20,91 @@ def err(path, lib) -> str:
 
 
 def test_unknown_ingredient_with_suggestion(write, lib):
-    p = write("f.yaml", """
+    p = write(
+        "f.yaml",
+        """
         product: {id: f, name: F}
         batch:
           - {ingredient: flour, amount: 100 g}
           - {ingredient: suger, amount: 10 g}
-    """)
+    """,
+    )
     msg = err(p, lib)
     assert "f.yaml, line 5" in msg and "unknown ingredient 'suger'" in msg and "did you mean sugar" in msg
 
 
-@pytest.mark.parametrize("amount, text", [
-    ("-5 g", "cannot read amount"),
-    ("0 g", "must be greater than zero"),
-    ("10", "has no unit"),
-    ("10 gr", "unknown unit 'gr'"),
-    ("10 kgs", "unknown unit 'kgs'"),
-])
+@pytest.mark.parametrize(
+    "amount, text",
+    [
+        ("-5 g", "cannot read amount"),
+        ("0 g", "must be greater than zero"),
+        ("10", "has no unit"),
+        ("10 gr", "unknown unit 'gr'"),
+        ("10 kgs", "unknown unit 'kgs'"),
+    ],
+)
 def test_bad_amounts(write, lib, amount, text):
-    p = write("f.yaml", f"""
+    p = write(
+        "f.yaml",
+        f"""
         product: {{id: f, name: F}}
         batch:
           - {{ingredient: flour, amount: {amount}}}
-    """)
+    """,
+    )
     msg = err(p, lib)
     assert text in msg and "line 4" in msg and "batch[0]" in msg
 
 
 def test_percentages_over_100(write, lib):
-    p = write("f.yaml", """
+    p = write(
+        "f.yaml",
+        """
         product: {id: f, name: F}
         batch:
           - {ingredient: flour, amount: 70 %}
           - {ingredient: sugar, amount: 40 %}
-    """)
+    """,
+    )
     assert "add up to 110 %, more than 100 %" in err(p, lib)
 
 
 def test_oil_uptake_with_no_oil(write, lib):
-    p = write("f.yaml", """
+    p = write(
+        "f.yaml",
+        """
         product: {id: f, name: F}
         batch: [{ingredient: tuber, amount: 100 g}]
         processing:
           - {step: frying, oil_uptake: {per_100g: 30}}
-    """)
+    """,
+    )
     msg = err(p, lib)
     assert "oil_uptake needs 'oil'" in msg and "processing[0].oil_uptake" in msg
 
 
 def test_cycle_is_named(write, lib):
-    write("a.yaml", """
+    write(
+        "a.yaml",
+        """
         subformula: {id: sub_a, name: A}
         batch: [{subformula: sub_b, amount: 100 g}]
-    """)
-    write("b.yaml", """
+    """,
+    )
+    write(
+        "b.yaml",
+        """
         subformula: {id: sub_b, name: B}
         batch: [{subformula: sub_a, amount: 100 g}]
-    """)
-    p = write("p.yaml", """
+    """,
+    )
+    p = write(
+        "p.yaml",
+        """
         product: {id: p, name: P}
         batch: [{subformula: sub_a, amount: 100 g}]
-    """)
+    """,
+    )
     assert "cycle: sub_a -> sub_b -> sub_a" in err(p, lib)
 
 
@@ -91,10 +115,13 @@ def test_yaml_syntax_error_names_line(write, lib):
 
 
 def test_unknown_key_in_formula(write, lib):
-    p = write("f.yaml", """
+    p = write(
+        "f.yaml",
+        """
         product: {id: f, name: F, sevring: {size: 30 g}}
         batch: [{ingredient: flour, amount: 100 g}]
-    """)
+    """,
+    )
     msg = err(p, lib)
     assert "product.sevring" in msg and "unknown key" in msg
 
@@ -109,7 +136,10 @@ def _bad_lib(tmp_path, body):
 
 
 def test_library_sum_over_100(tmp_path):
-    msg = _bad_lib(tmp_path, "ingredients:\n  x:\n    label_name: X\n    source: test\n    per_100g: {water: 60, protein: 30, fat: 20}\n")
+    msg = _bad_lib(
+        tmp_path,
+        "ingredients:\n  x:\n    label_name: X\n    source: test\n    per_100g: {water: 60, protein: 30, fat: 20}\n",
+    )
     assert "sum to 110.00 g per 100 g" in msg and "line" in msg
 
 
@@ -132,10 +162,13 @@ def test_library_csv_empty_cell_is_unknown(tmp_path):
 
 
 def test_cli_error_is_one_message_exit_2(write, lib_dir):
-    p = write("f.yaml", """
+    p = write(
+        "f.yaml",
+        """
         product: {id: f, name: F}
         batch: [{ingredient: flour, amount: 100 gram}]
-    """)
+    """,
+    )
     res = runner.invoke(app, ["compose", str(p), "--library", str(lib_dir)])
     assert res.exit_code == 2
     assert "Traceback" not in res.output
@@ -143,11 +176,14 @@ def test_cli_error_is_one_message_exit_2(write, lib_dir):
 
 
 def test_cli_moisture_loss_over_water(write, lib_dir):
-    p = write("f.yaml", """
+    p = write(
+        "f.yaml",
+        """
         product: {id: f, name: F}
         batch: [{ingredient: flour, amount: 100 g}]
         processing: [{step: baking, moisture_loss: {percent_of_batch: 50}}]
-    """)
+    """,
+    )
     res = runner.invoke(app, ["compose", str(p), "--library", str(lib_dir)])
     assert res.exit_code == 2 and "exceeds the 14.00 g of water present" in res.output
     assert "line 4" in res.output

@@ -5,17 +5,16 @@ from __future__ import annotations
 import sys
 from pathlib import Path
 
-
-from labelcalc.assess import assess
-from labelcalc.batch import BatchLabels
-from labelcalc.composition import compose_many
-from labelcalc.declare import declare
 from labelcalc.errors import LabelError
-from labelcalc.formula import FormulaIndex, load_formula
-from labelcalc.library import load_library
-from labelcalc.rangerun import label_record, summary_row
-from labelcalc.rulepack import load_packs
-from labelcalc.sources import product_files
+from labelcalc.formulation.composition import compose_many
+from labelcalc.intake.formula import FormulaIndex, load_formula
+from labelcalc.intake.library import load_library
+from labelcalc.intake.sources import product_files
+from labelcalc.labelling.assess import assess
+from labelcalc.labelling.batch import BatchLabels
+from labelcalc.labelling.declare import declare
+from labelcalc.labelling.rulepack import load_packs
+from labelcalc.ranges.rangerun import label_record, summary_row
 
 ROOT = Path(__file__).resolve().parent.parent
 MARKETS = ["us", "eu", "uk", "ca", "anz", "codex"]
@@ -43,14 +42,25 @@ def _compare(folder: Path, lib_dir: Path):
             want_row = summary_row(c.formula, d, a)
             want_rec = label_record(c.formula, d, a, {}, "")
             row, dec, st, al, cl = got[(c.formula.id, c.scenario)]
-            assert row == want_row, (market, c.formula.id, {k: (row.get(k), want_row.get(k)) for k in set(row) | set(want_row) if row.get(k) != want_row.get(k)})
-            assert dec == want_rec.declared and st == want_rec.statements and al == want_rec.allergens and cl == want_rec.claims
+            assert row == want_row, (
+                market,
+                c.formula.id,
+                {k: (row.get(k), want_row.get(k)) for k in set(row) | set(want_row) if row.get(k) != want_row.get(k)},
+            )
+            assert (
+                dec == want_rec.declared
+                and st == want_rec.statements
+                and al == want_rec.allergens
+                and cl == want_rec.claims
+            )
             checked += 1
     return checked
 
 
 def test_batch_equals_single_on_demo_products():
-    assert _compare(ROOT / "demo_products", ROOT / "demo_products" / "ingredients") >= 48  # 6 products, 8 labels, 6 markets
+    assert (
+        _compare(ROOT / "demo_products", ROOT / "demo_products" / "ingredients") >= 48
+    )  # 6 products, 8 labels, 6 markets
 
 
 def test_batch_equals_single_on_a_generated_range(tmp_path):

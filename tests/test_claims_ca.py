@@ -21,10 +21,10 @@ from __future__ import annotations
 import pytest
 from claimkit import Lab, claim, one, statement, verdict  # noqa: F401
 
-from labelcalc.assess import CANNOT_TELL, ELIGIBLE, NOT_ELIGIBLE
-from labelcalc.formula import load_formula
-from labelcalc.library import load_library
-from labelcalc.rulepack import load_packs
+from labelcalc.intake.formula import load_formula
+from labelcalc.intake.library import load_library
+from labelcalc.labelling.assess import CANNOT_TELL, ELIGIBLE, NOT_ELIGIBLE
+from labelcalc.labelling.rulepack import load_packs
 
 CA = load_packs()["ca"]
 
@@ -38,38 +38,56 @@ def lab(tmp_path):
 # (claim, per 100 g, category, serving, expected). snacks: reference amount 50 g -> figure = per100 / 2.
 ABSOLUTE = [
     # TPNCSC item 1, free of energy: < 5 Cal per reference amount and serving (CFIA, secondary). 4 Cal/g sugars.
-    ("free_of_energy", {"sugars": 2.5}, "snacks", "30 g", NOT_ELIGIBLE),    # 5.0 Cal per RA: not below 5
-    ("free_of_energy", {"sugars": 2.49}, "snacks", "30 g", ELIGIBLE),       # 4.98 Cal
-    ("free_of_energy", {"sugars": 2.51}, "snacks", "30 g", NOT_ELIGIBLE),   # 5.02 Cal
-    ("free_of_energy", {"sugars": 2.08}, "snacks", "60 g", ELIGIBLE),       # per serving 4.99 Cal decides
-    ("free_of_energy", {"sugars": 2.09}, "snacks", "60 g", NOT_ELIGIBLE),   # per serving 5.016 Cal
+    ("free_of_energy", {"sugars": 2.5}, "snacks", "30 g", NOT_ELIGIBLE),  # 5.0 Cal per RA: not below 5
+    ("free_of_energy", {"sugars": 2.49}, "snacks", "30 g", ELIGIBLE),  # 4.98 Cal
+    ("free_of_energy", {"sugars": 2.51}, "snacks", "30 g", NOT_ELIGIBLE),  # 5.02 Cal
+    ("free_of_energy", {"sugars": 2.08}, "snacks", "60 g", ELIGIBLE),  # per serving 4.99 Cal decides
+    ("free_of_energy", {"sugars": 2.09}, "snacks", "60 g", NOT_ELIGIBLE),  # per serving 5.016 Cal
     # item 2, low in energy: <= 40 Cal per RA and serving, per 50 g if RA <= 30 g (from memory — verify)
-    ("low_in_energy", {"sugars": 20}, "snacks", "30 g", ELIGIBLE),          # 40 Cal per RA
+    ("low_in_energy", {"sugars": 20}, "snacks", "30 g", ELIGIBLE),  # 40 Cal per RA
     ("low_in_energy", {"sugars": 19.98}, "snacks", "30 g", ELIGIBLE),
-    ("low_in_energy", {"sugars": 20.02}, "snacks", "30 g", NOT_ELIGIBLE),   # 40.04 Cal
+    ("low_in_energy", {"sugars": 20.02}, "snacks", "30 g", NOT_ELIGIBLE),  # 40.04 Cal
     ("low_in_energy", {"sugars": 20}, "crackers_snack", "20 g", ELIGIBLE),  # small RA: 40 Cal per 50 g
     ("low_in_energy", {"sugars": 20.02}, "crackers_snack", "20 g", NOT_ELIGIBLE),  # per 50 g 40.04 (per RA 16)
     # item 11, free of fat: < 0.5 g per RA and serving (from memory — verify)
-    ("free_of_fat", {"fat": 1.0}, "snacks", "30 g", NOT_ELIGIBLE),          # 0.5 g per RA
+    ("free_of_fat", {"fat": 1.0}, "snacks", "30 g", NOT_ELIGIBLE),  # 0.5 g per RA
     ("free_of_fat", {"fat": 0.98}, "snacks", "30 g", ELIGIBLE),
     ("free_of_fat", {"fat": 1.02}, "snacks", "30 g", NOT_ELIGIBLE),
     # item 12, low in fat: <= 3 g per RA and serving, per 50 g if RA <= 30 g (from memory — verify)
-    ("low_in_fat", {"fat": 6}, "snacks", "30 g", ELIGIBLE),                 # 3 g per RA
+    ("low_in_fat", {"fat": 6}, "snacks", "30 g", ELIGIBLE),  # 3 g per RA
     ("low_in_fat", {"fat": 5.98}, "snacks", "30 g", ELIGIBLE),
     ("low_in_fat", {"fat": 6.02}, "snacks", "30 g", NOT_ELIGIBLE),
-    ("low_in_fat", {"fat": 6}, "crackers_snack", "20 g", ELIGIBLE),         # 3 g per 50 g
+    ("low_in_fat", {"fat": 6}, "crackers_snack", "20 g", ELIGIBLE),  # 3 g per 50 g
     ("low_in_fat", {"fat": 6.02}, "crackers_snack", "20 g", NOT_ELIGIBLE),  # 3.01 g per 50 g (1.2 g per RA)
     # item 18, free of saturated fatty acids: < 0.2 g saturated and < 0.2 g trans (from memory — verify)
     ("free_of_saturated_fatty_acids", {"fat": 0.4, "saturated_fa": 0.4}, "snacks", "30 g", NOT_ELIGIBLE),
     ("free_of_saturated_fatty_acids", {"fat": 0.38, "saturated_fa": 0.38}, "snacks", "30 g", ELIGIBLE),
     ("free_of_saturated_fatty_acids", {"fat": 0.42, "saturated_fa": 0.42}, "snacks", "30 g", NOT_ELIGIBLE),
-    ("free_of_saturated_fatty_acids", {"fat": 0.4, "saturated_fa": 0.1, "trans_fa": 0.4}, "snacks", "30 g", NOT_ELIGIBLE),
+    (
+        "free_of_saturated_fatty_acids",
+        {"fat": 0.4, "saturated_fa": 0.1, "trans_fa": 0.4},
+        "snacks",
+        "30 g",
+        NOT_ELIGIBLE,
+    ),
     # item 19, low in saturated fatty acids: saturated + trans <= 2 g per RA and serving and <= 15 % of energy
     # (from memory — verify). 4 g saturated + 51 g sugars: 36 + 204 = 240 Cal, 36 / 240 = 15 %.
     ("low_in_saturated_fatty_acids", {"fat": 4, "saturated_fa": 4, "sugars": 51}, "snacks", "30 g", ELIGIBLE),
     ("low_in_saturated_fatty_acids", {"fat": 4.02, "saturated_fa": 4.02, "sugars": 51}, "snacks", "30 g", NOT_ELIGIBLE),
-    ("low_in_saturated_fatty_acids", {"fat": 2, "saturated_fa": 2, "sugars": 25.5}, "snacks", "30 g", ELIGIBLE),   # 15.0 %
-    ("low_in_saturated_fatty_acids", {"fat": 2, "saturated_fa": 2, "sugars": 25.4}, "snacks", "30 g", NOT_ELIGIBLE),  # 15.06 %
+    (
+        "low_in_saturated_fatty_acids",
+        {"fat": 2, "saturated_fa": 2, "sugars": 25.5},
+        "snacks",
+        "30 g",
+        ELIGIBLE,
+    ),  # 15.0 %
+    (
+        "low_in_saturated_fatty_acids",
+        {"fat": 2, "saturated_fa": 2, "sugars": 25.4},
+        "snacks",
+        "30 g",
+        NOT_ELIGIBLE,
+    ),  # 15.06 %
     # item 31, free of sodium or salt: < 5 mg per RA and serving (from memory — verify)
     ("free_of_sodium_or_salt", {"sodium": 10}, "snacks", "30 g", NOT_ELIGIBLE),
     ("free_of_sodium_or_salt", {"sodium": 9.98}, "snacks", "30 g", ELIGIBLE),
@@ -81,14 +99,14 @@ ABSOLUTE = [
     ("low_in_sodium_or_salt", {"sodium": 280}, "crackers_snack", "20 g", ELIGIBLE),
     ("low_in_sodium_or_salt", {"sodium": 280.2}, "crackers_snack", "20 g", NOT_ELIGIBLE),
     # item 37, free of sugars: < 0.5 g sugars per RA and serving, and free of energy (from memory — verify)
-    ("free_of_sugars", {"sugars": 0.98}, "snacks", "30 g", ELIGIBLE),       # 0.49 g, 1.96 Cal per RA
-    ("free_of_sugars", {"sugars": 1.0}, "snacks", "30 g", NOT_ELIGIBLE),    # 0.5 g per RA
+    ("free_of_sugars", {"sugars": 0.98}, "snacks", "30 g", ELIGIBLE),  # 0.49 g, 1.96 Cal per RA
+    ("free_of_sugars", {"sugars": 1.0}, "snacks", "30 g", NOT_ELIGIBLE),  # 0.5 g per RA
     ("free_of_sugars", {"sugars": 0.5, "protein": 2}, "snacks", "30 g", NOT_ELIGIBLE),  # sugars fine, 5 Cal per RA
     # items 41-43, fibre: >= 2 / 4 / 6 g per RA and serving (from memory — verify); serving = RA = 50 g
     ("source_of_fibre", {"fibre_insoluble": 4}, "snacks", "50 g", ELIGIBLE),
     ("source_of_fibre", {"fibre_insoluble": 4.02}, "snacks", "50 g", ELIGIBLE),
     ("source_of_fibre", {"fibre_insoluble": 3.98}, "snacks", "50 g", NOT_ELIGIBLE),
-    ("source_of_fibre", {"fibre_insoluble": 4}, "snacks", "30 g", NOT_ELIGIBLE),   # per serving only 1.2 g
+    ("source_of_fibre", {"fibre_insoluble": 4}, "snacks", "30 g", NOT_ELIGIBLE),  # per serving only 1.2 g
     ("high_source_of_fibre", {"fibre_insoluble": 8}, "snacks", "50 g", ELIGIBLE),
     ("high_source_of_fibre", {"fibre_insoluble": 7.98}, "snacks", "50 g", NOT_ELIGIBLE),
     ("very_high_source_of_fibre", {"fibre_insoluble": 12}, "snacks", "50 g", ELIGIBLE),
@@ -118,25 +136,28 @@ def _pair(lab, mine: dict, ref: dict, category="snacks"):
     return p, r
 
 
-@pytest.mark.parametrize("claim_id, mine, ref, expected", [
-    # item 13, reduced in fat: >= 25 % less fat per RA (from memory — verify)
-    ("reduced_in_fat", {"fat": 7.5}, {"fat": 10}, ELIGIBLE),          # exactly 25 %
-    ("reduced_in_fat", {"fat": 7.48}, {"fat": 10}, ELIGIBLE),
-    ("reduced_in_fat", {"fat": 7.52}, {"fat": 10}, NOT_ELIGIBLE),     # 24.8 %
-    # item 3, reduced in energy: >= 25 % less energy per RA (from memory — verify)
-    ("reduced_in_energy", {"sugars": 30}, {"sugars": 40}, ELIGIBLE),
-    ("reduced_in_energy", {"sugars": 30.1}, {"sugars": 40}, NOT_ELIGIBLE),
-    # item 33, reduced in sodium or salt: >= 25 % (from memory — verify)
-    ("reduced_in_sodium_or_salt", {"sodium": 300}, {"sodium": 400}, ELIGIBLE),
-    ("reduced_in_sodium_or_salt", {"sodium": 301}, {"sodium": 400}, NOT_ELIGIBLE),
-    # item 38, reduced in sugars: >= 25 % and >= 5 g less per RA (from memory — verify)
-    ("reduced_in_sugars", {"sugars": 30}, {"sugars": 40}, ELIGIBLE),    # 25 %, 5 g per RA
-    ("reduced_in_sugars", {"sugars": 30.02}, {"sugars": 40}, NOT_ELIGIBLE),
-    ("reduced_in_sugars", {"sugars": 12}, {"sugars": 16}, NOT_ELIGIBLE),  # 25 % but only 2 g per RA
-    # item 45, light in energy or fat: meets reduced in energy OR reduced in fat (from memory — verify)
-    ("light_in_energy_or_fat", {"fat": 7.5, "sugars": 40}, {"fat": 10, "sugars": 40}, ELIGIBLE),  # fat -25 %
-    ("light_in_energy_or_fat", {"fat": 9, "sugars": 40}, {"fat": 10, "sugars": 40}, NOT_ELIGIBLE),
-])
+@pytest.mark.parametrize(
+    "claim_id, mine, ref, expected",
+    [
+        # item 13, reduced in fat: >= 25 % less fat per RA (from memory — verify)
+        ("reduced_in_fat", {"fat": 7.5}, {"fat": 10}, ELIGIBLE),  # exactly 25 %
+        ("reduced_in_fat", {"fat": 7.48}, {"fat": 10}, ELIGIBLE),
+        ("reduced_in_fat", {"fat": 7.52}, {"fat": 10}, NOT_ELIGIBLE),  # 24.8 %
+        # item 3, reduced in energy: >= 25 % less energy per RA (from memory — verify)
+        ("reduced_in_energy", {"sugars": 30}, {"sugars": 40}, ELIGIBLE),
+        ("reduced_in_energy", {"sugars": 30.1}, {"sugars": 40}, NOT_ELIGIBLE),
+        # item 33, reduced in sodium or salt: >= 25 % (from memory — verify)
+        ("reduced_in_sodium_or_salt", {"sodium": 300}, {"sodium": 400}, ELIGIBLE),
+        ("reduced_in_sodium_or_salt", {"sodium": 301}, {"sodium": 400}, NOT_ELIGIBLE),
+        # item 38, reduced in sugars: >= 25 % and >= 5 g less per RA (from memory — verify)
+        ("reduced_in_sugars", {"sugars": 30}, {"sugars": 40}, ELIGIBLE),  # 25 %, 5 g per RA
+        ("reduced_in_sugars", {"sugars": 30.02}, {"sugars": 40}, NOT_ELIGIBLE),
+        ("reduced_in_sugars", {"sugars": 12}, {"sugars": 16}, NOT_ELIGIBLE),  # 25 % but only 2 g per RA
+        # item 45, light in energy or fat: meets reduced in energy OR reduced in fat (from memory — verify)
+        ("light_in_energy_or_fat", {"fat": 7.5, "sugars": 40}, {"fat": 10, "sugars": 40}, ELIGIBLE),  # fat -25 %
+        ("light_in_energy_or_fat", {"fat": 9, "sugars": 40}, {"fat": 10, "sugars": 40}, NOT_ELIGIBLE),
+    ],
+)
 def test_comparative_claims(lab, claim_id, mine, ref, expected):
     p, r = _pair(lab, mine, ref)
     a = lab.assess(p, r)
@@ -164,8 +185,12 @@ def test_no_added_sugars_and_unsweetened(lab):
     assert verdict(a, "no_added_sugars") == NOT_ELIGIBLE
     assert any("sugar" in f for f in claim(a, "no_added_sugars").failed)
     # B.01.509(1)(b) (confirmed): the food does not contain a sweetener
-    asp = lab.add("aspartame", {"protein": 0.001}, name="Aspartame", kinds=["sweetener", "additive"], substance="aspartame")
-    b = lab.assess(lab.formula("swt", [{"ingredient": base, "amount": "99.9 g"}, {"ingredient": asp, "amount": "0.1 g"}]))
+    asp = lab.add(
+        "aspartame", {"protein": 0.001}, name="Aspartame", kinds=["sweetener", "additive"], substance="aspartame"
+    )
+    b = lab.assess(
+        lab.formula("swt", [{"ingredient": base, "amount": "99.9 g"}, {"ingredient": asp, "amount": "0.1 g"}])
+    )
     assert verdict(b, "no_added_sugars") == ELIGIBLE
     c = claim(b, "unsweetened")
     assert c.verdict == NOT_ELIGIBLE and any("aspartame" in f for f in c.failed)
@@ -174,10 +199,16 @@ def test_no_added_sugars_and_unsweetened(lab):
 # --- statements -----------------------------------------------------------------------------------------
 def test_aspartame_statement_also_through_a_subformula(lab):
     # FDR B.16.016(1): any food that contains aspartame (confirmed); placement B.16.016(2)
-    asp = lab.add("aspartame", {"protein": 0.001}, name="Aspartame", kinds=["sweetener", "additive"], substance="aspartame")
+    asp = lab.add(
+        "aspartame", {"protein": 0.001}, name="Aspartame", kinds=["sweetener", "additive"], substance="aspartame"
+    )
     base = lab.add("base", {"starch": 60})
-    lab.formula("premix", [{"ingredient": base, "amount": "99 g"}, {"ingredient": asp, "amount": "1 g"}], sub=True,
-                name="Sweetener premix")
+    lab.formula(
+        "premix",
+        [{"ingredient": base, "amount": "99 g"}, {"ingredient": asp, "amount": "1 g"}],
+        sub=True,
+        name="Sweetener premix",
+    )
     p = lab.formula("drinkmix", [{"ingredient": base, "amount": "90 g"}, {"subformula": "premix", "amount": "10 g"}])
     s = statement(lab.assess(p), "aspartame_phenylalanine")
     assert s is not None and "phenylalanine" in s.text.lower()
@@ -188,9 +219,12 @@ def test_aspartame_statement_also_through_a_subformula(lab):
 def test_no_laxative_statement_in_canada_but_sugar_alcohols_row(lab):
     # No sugar-alcohol laxative statement in the FDR (Division 16 labelling provisions read); added sugar
     # alcohols are declared in the nutrition facts table (B.01.402(6), confirmed).
-    malt = lab.add("maltitol", {"maltitol": 100}, name="Maltitol", kinds=["polyol", "sweetener", "additive"],
-                   substance="maltitol")
-    p = lab.formula("gum", [{"ingredient": malt, "amount": "60 g"}, {"ingredient": lab.add("b", {"starch": 80}), "amount": "40 g"}])
+    malt = lab.add(
+        "maltitol", {"maltitol": 100}, name="Maltitol", kinds=["polyol", "sweetener", "additive"], substance="maltitol"
+    )
+    p = lab.formula(
+        "gum", [{"ingredient": malt, "amount": "60 g"}, {"ingredient": lab.add("b", {"starch": 80}), "amount": "40 g"}]
+    )
     a = lab.assess(p)
     assert not [s for s in a.statements if "laxative" in s.text.lower()]
     assert a.declaration.row("sugar_alcohols").shown
@@ -199,14 +233,20 @@ def test_no_laxative_statement_in_canada_but_sugar_alcohols_row(lab):
 def test_polydextrose_amount_statement(lab):
     # B.16.017 (confirmed): the amount of polydextrose in grams per serving of stated size
     pdx = lab.add("pdx", {"fibre_soluble": 90}, name="Polydextrose", kinds=["additive"], substance="polydextrose")
-    p = lab.formula("pd", [{"ingredient": pdx, "amount": "10 g"}, {"ingredient": lab.add("b", {"starch": 80}), "amount": "90 g"}])
+    p = lab.formula(
+        "pd", [{"ingredient": pdx, "amount": "10 g"}, {"ingredient": lab.add("b", {"starch": 80}), "amount": "90 g"}]
+    )
     assert statement(lab.assess(p), "polydextrose_amount") is not None
 
 
 def test_nonabsorbed_lipid_flags_authorisation_review(lab):
     # B.16.009 (only listed food additives may be sold, confirmed); novel-food status from memory — verify
-    spe = lab.add("spe", {"nonabsorbed_lipid": 100}, name="Sucrose polyester", kinds=["fat"], substance="sucrose_polyester")
-    p = lab.formula("lite", [{"ingredient": spe, "amount": "20 g"}, {"ingredient": lab.add("b", {"starch": 80}), "amount": "80 g"}])
+    spe = lab.add(
+        "spe", {"nonabsorbed_lipid": 100}, name="Sucrose polyester", kinds=["fat"], substance="sucrose_polyester"
+    )
+    p = lab.formula(
+        "lite", [{"ingredient": spe, "amount": "20 g"}, {"ingredient": lab.add("b", {"starch": 80}), "amount": "80 g"}]
+    )
     s = statement(lab.assess(p), "nonabsorbed_lipid_authorisation")
     assert s is not None and "REVIEW" in s.text and "Health Canada" in s.caution
     assert statement(lab.assess(one(lab, {"starch": 60}, fid="none")), "nonabsorbed_lipid_authorisation") is None
@@ -217,15 +257,19 @@ def test_allergen_through_subformula_gluten_and_statement(lab):
     whey = lab.add("whey", {"protein": 12, "sugars": 70}, name="Whey powder", allergens=["milk"])
     barley = lab.add("barley", {"starch": 70, "protein": 10}, name="Barley malt flour", allergens=["barley"])
     base = lab.add("base", {"starch": 80})
-    lab.formula("coat", [{"ingredient": whey, "amount": "50 g"}, {"ingredient": base, "amount": "50 g"}], sub=True,
-                name="Coating")
+    lab.formula(
+        "coat",
+        [{"ingredient": whey, "amount": "50 g"}, {"ingredient": base, "amount": "50 g"}],
+        sub=True,
+        name="Coating",
+    )
     p = lab.formula("bar", [{"ingredient": barley, "amount": "60 g"}, {"subformula": "coat", "amount": "40 g"}])
     a = lab.assess(p)
-    assert a.allergens["declared"] == ["Milk", "Barley"]          # barley as a gluten source (B.01.010.1(7))
+    assert a.allergens["declared"] == ["Milk", "Barley"]  # barley as a gluten source (B.01.010.1(7))
     assert a.allergens["statement"] == "Contains: Milk, Barley."  # title "Contains:" (B.01.010.3(1)(a))
-    assert a.allergens["summary"] == "when_not_in_list"           # statement mandatory when not in the list (9)
-    assert "Whey powder (Milk)" in a.ingredient_list["text"]      # source in parentheses after the ingredient (8)
-    assert "Barley malt flour" in a.ingredient_list["text"]       # source already in the common name (10)(a)(i)
+    assert a.allergens["summary"] == "when_not_in_list"  # statement mandatory when not in the list (9)
+    assert "Whey powder (Milk)" in a.ingredient_list["text"]  # source in parentheses after the ingredient (8)
+    assert "Barley malt flour" in a.ingredient_list["text"]  # source already in the common name (10)(a)(i)
 
 
 def test_priority_allergens_names(lab):
@@ -242,7 +286,9 @@ def test_priority_allergens_names(lab):
 @pytest.mark.parametrize("mg_per_100g, declared", [(1.0, True), (0.99, False), (1.01, True)])
 def test_sulphites_at_10_ppm(lab, mg_per_100g, declared):
     # B.01.010.2(3): added sulphites in a total amount of 10 p.p.m. or more (1.0 mg/100 g = 10 mg/kg)
-    fruit = lab.add("fruit", {"sugars": 60, "sulphites": mg_per_100g * 2}, name="Dried apricots", allergens=["sulphites"])
+    fruit = lab.add(
+        "fruit", {"sugars": 60, "sulphites": mg_per_100g * 2}, name="Dried apricots", allergens=["sulphites"]
+    )
     base = lab.add("base", {"starch": 80})
     p = lab.formula("mix", [{"ingredient": fruit, "amount": "50 g"}, {"ingredient": base, "amount": "50 g"}])
     assert ("Sulphites" in lab.assess(p).allergens["declared"]) is declared
@@ -260,29 +306,35 @@ def test_allergens_unknown_are_flagged(lab):
 def test_ingredient_list_orders_by_weight_before_combining(lab):
     flour = lab.add("flour", {"starch": 88, "protein": 12}, name="Wheat flour", allergens=["wheat"])
     water = lab.add("water", {"water": 100}, name="Water", kinds=["water"])
-    p = lab.formula("bake", [{"ingredient": flour, "amount": "45 g"}, {"ingredient": water, "amount": "55 g"}],
-                    processing=[{"step": "baking", "finished_weight": "70 g"}])
+    p = lab.formula(
+        "bake",
+        [{"ingredient": flour, "amount": "45 g"}, {"ingredient": water, "amount": "55 g"}],
+        processing=[{"step": "baking", "finished_weight": "70 g"}],
+    )
     text = lab.assess(p).ingredient_list["text"]
     # water 55 g used > flour 45 g: water first (water removed in baking is not deducted in Canada)
     assert text.startswith("Ingredients: Water, Wheat flour")
 
 
 # --- front-of-package symbol (B.01.350 and its table, confirmed; DVs from memory — verify) ---------------
-@pytest.mark.parametrize("per100, category, serving, nutrient, high", [
-    # RA 50 g > 30 g: 15 % DV; basis = max(serving 30 g, RA 50 g) = 50 g. Sodium DV 2300 mg: 345 mg per 50 g.
-    ({"sodium": 690}, "snacks", "30 g", "sodium", True),      # exactly 15 %: meets the threshold
-    ({"sodium": 689}, "snacks", "30 g", "sodium", False),
-    ({"sodium": 345}, "snacks", "100 g", "sodium", True),     # serving 100 g > RA: per serving 15 % (B.01.350(2))
-    # RA 20 g <= 30 g: 10 % DV: 230 mg per 20 g
-    ({"sodium": 1150}, "crackers_snack", "20 g", "sodium", True),
-    ({"sodium": 1149}, "crackers_snack", "20 g", "sodium", False),
-    # saturated fat against the saturated + trans DV (20 g): 3 g per 50 g
-    ({"fat": 6, "saturated_fa": 6}, "snacks", "30 g", "saturated_fat", True),
-    ({"fat": 5.98, "saturated_fa": 5.98}, "snacks", "30 g", "saturated_fat", False),
-    # sugars DV 100 g: 15 g per 50 g
-    ({"sugars": 30}, "snacks", "30 g", "sugars", True),
-    ({"sugars": 29.98}, "snacks", "30 g", "sugars", False),
-])
+@pytest.mark.parametrize(
+    "per100, category, serving, nutrient, high",
+    [
+        # RA 50 g > 30 g: 15 % DV; basis = max(serving 30 g, RA 50 g) = 50 g. Sodium DV 2300 mg: 345 mg per 50 g.
+        ({"sodium": 690}, "snacks", "30 g", "sodium", True),  # exactly 15 %: meets the threshold
+        ({"sodium": 689}, "snacks", "30 g", "sodium", False),
+        ({"sodium": 345}, "snacks", "100 g", "sodium", True),  # serving 100 g > RA: per serving 15 % (B.01.350(2))
+        # RA 20 g <= 30 g: 10 % DV: 230 mg per 20 g
+        ({"sodium": 1150}, "crackers_snack", "20 g", "sodium", True),
+        ({"sodium": 1149}, "crackers_snack", "20 g", "sodium", False),
+        # saturated fat against the saturated + trans DV (20 g): 3 g per 50 g
+        ({"fat": 6, "saturated_fa": 6}, "snacks", "30 g", "saturated_fat", True),
+        ({"fat": 5.98, "saturated_fa": 5.98}, "snacks", "30 g", "saturated_fat", False),
+        # sugars DV 100 g: 15 g per 50 g
+        ({"sugars": 30}, "snacks", "30 g", "sugars", True),
+        ({"sugars": 29.98}, "snacks", "30 g", "sugars", False),
+    ],
+)
 def test_front_of_package_thresholds(lab, per100, category, serving, nutrient, high):
     (fop,) = lab.assess(one(lab, per100, category=category, serving=serving)).front_of_pack
     assert fop["verdicts"][nutrient]["high_in"] is high, fop
@@ -291,7 +343,8 @@ def test_front_of_package_thresholds(lab, per100, category, serving, nutrient, h
 def _pack_with(category, amount_g):
     pack = CA.model_copy(deep=True)
     ra = pack.servings.reference_amounts["snacks"].model_copy(
-        update={"amount_g": amount_g, "small": amount_g <= 30, "label": f"test-only category {category}"})
+        update={"amount_g": amount_g, "small": amount_g <= 30, "label": f"test-only category {category}"}
+    )
     pack.servings.reference_amounts[category] = ra
     return pack
 
@@ -306,7 +359,9 @@ def test_front_of_package_main_dish_and_exemptions(lab):
     assert b.front_of_pack[0]["verdicts"]["sodium"]["high_in"] is False
     # B.01.350(5)(h): table salt is exempt
     salt = _pack_with("table_salt", 1)
-    c = lab.assess(one(lab, {"sodium": 38000, "ash": 99.9}, fid="salt", category="table_salt", serving="1 g"), pack=salt)
+    c = lab.assess(
+        one(lab, {"sodium": 38000, "ash": 99.9}, fid="salt", category="table_salt", serving="1 g"), pack=salt
+    )
     assert c.front_of_pack[0]["exempt"] is True
 
 

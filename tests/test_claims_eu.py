@@ -21,16 +21,16 @@ from pathlib import Path
 
 import pytest
 
-from labelcalc.assess import CANNOT_TELL, ELIGIBLE, NOT_ELIGIBLE, assess
-from labelcalc.composition import compose
-from labelcalc.declare import declare
-from labelcalc.formula import load_formula
-from labelcalc.library import load_library
-from labelcalc.rulepack import load_pack_file
+from labelcalc.formulation.composition import compose
+from labelcalc.intake.formula import load_formula
+from labelcalc.intake.library import load_library
+from labelcalc.labelling.assess import CANNOT_TELL, ELIGIBLE, NOT_ELIGIBLE, assess
+from labelcalc.labelling.declare import declare
+from labelcalc.labelling.rulepack import load_pack_file
 
 ROOT = Path(__file__).resolve().parent.parent
 DEMO = ROOT / "demo_products"
-PACK_FILE = ROOT / "rules" / "markets" / "eu_1169_2011.yaml"
+PACK_FILE = ROOT / "labelcalc" / "rules" / "markets" / "eu_1169_2011.yaml"
 
 
 @pytest.fixture(scope="module")
@@ -40,12 +40,17 @@ def pack():
 
 # ------------------------------------------------------------------------------------ helpers
 
+
 def _ingredient_yaml(key: str, spec: dict) -> str:
     per = spec.get("per_100g", {})
     body = ", ".join(f"{k}: {v!r}" for k, v in per.items())
-    lines = [f"  {key}:", f"    label_name: {spec.get('label', key.replace('_', ' ').capitalize())}",
-             "    source: test data (invented round numbers)",
-             f"    unlisted: {spec.get('unlisted', 'zero')}", f"    per_100g: {{{body}}}"]
+    lines = [
+        f"  {key}:",
+        f"    label_name: {spec.get('label', key.replace('_', ' ').capitalize())}",
+        "    source: test data (invented round numbers)",
+        f"    unlisted: {spec.get('unlisted', 'zero')}",
+        f"    per_100g: {{{body}}}",
+    ]
     if "allergens" not in spec or spec["allergens"] is not None:
         lines.append(f"    allergens: {spec.get('allergens', [])}")
     if spec.get("kinds"):
@@ -74,8 +79,20 @@ class Lab:
         (d / "lib.yaml").write_text(text, encoding="utf-8")
         return load_library(d)
 
-    def formula(self, batch: list[tuple[str, float]], *, name="Test food", form="solid", density=None,
-                kind="product", ident=None, processing="", subformulas=(), label_name=None, serving=None):
+    def formula(
+        self,
+        batch: list[tuple[str, float]],
+        *,
+        name="Test food",
+        form="solid",
+        density=None,
+        kind="product",
+        ident=None,
+        processing="",
+        subformulas=(),
+        label_name=None,
+        serving=None,
+    ):
         self.n += 1
         ident = ident or f"f{self.n}"
         head = [f"{kind}:", f"  id: {ident}", f"  name: {name}", f"  form: {form}"]
@@ -186,8 +203,10 @@ def test_liquid_claims_are_per_100_ml(lab):
 
 
 # 'low saturated fat': saturated + trans fatty acids <= 1.5 g/100 g (solids) and <= 10 % of energy
-@pytest.mark.parametrize("sat, trans, expected", [
-    (1.5, 0, ELIGIBLE), (1.49, 0, ELIGIBLE), (1.51, 0, NOT_ELIGIBLE), (1.0, 0.51, NOT_ELIGIBLE), (1.0, 0.5, ELIGIBLE)])
+@pytest.mark.parametrize(
+    "sat, trans, expected",
+    [(1.5, 0, ELIGIBLE), (1.49, 0, ELIGIBLE), (1.51, 0, NOT_ELIGIBLE), (1.0, 0.51, NOT_ELIGIBLE), (1.0, 0.5, ELIGIBLE)],
+)
 def test_low_saturated_fat_grams(lab, sat, trans, expected):
     a = lab.one({"fat": sat + trans, "saturated_fa": sat, "trans_fa": trans, "sugars": 60})
     assert verdict(a, "low_saturated_fat").verdict == expected
@@ -209,7 +228,9 @@ def test_low_saturated_fat_liquid(lab, sat, expected):
     assert verdict(a, "low_saturated_fat_liquid").verdict == expected
 
 
-@pytest.mark.parametrize("sat, trans, expected", [(0.1, 0, ELIGIBLE), (0.05, 0.04, ELIGIBLE), (0.06, 0.05, NOT_ELIGIBLE)])
+@pytest.mark.parametrize(
+    "sat, trans, expected", [(0.1, 0, ELIGIBLE), (0.05, 0.04, ELIGIBLE), (0.06, 0.05, NOT_ELIGIBLE)]
+)
 def test_saturated_fat_free(lab, sat, trans, expected):
     # 'saturated fat-free': saturated + trans <= 0.1 g/100 g or 100 ml
     a = lab.one({"fat": 0.2, "saturated_fa": sat, "trans_fa": trans})
@@ -218,24 +239,37 @@ def test_saturated_fat_free(lab, sat, trans, expected):
 
 # 'source of fibre' >= 3 g/100 g OR >= 1.5 g/100 kcal; 'high fibre' >= 6 g/100 g OR >= 3 g/100 kcal.
 # Per 100 kcal: fibre f and sugars s give f / (4 s + 2 f) x 100 kcal.
-@pytest.mark.parametrize("claim, fibre, sugars, expected", [
-    ("source_of_fibre", 3, 80, ELIGIBLE), ("source_of_fibre", 2.99, 80, NOT_ELIGIBLE), ("source_of_fibre", 3.01, 80, ELIGIBLE),
-    ("source_of_fibre", 1.2, 19.4, ELIGIBLE),       # 1.2 g in 80 kcal = 1.5 g/100 kcal exactly
-    ("source_of_fibre", 1.2, 19.5, NOT_ELIGIBLE),   # 80.4 kcal -> 1.49 g/100 kcal
-    ("high_fibre", 6, 80, ELIGIBLE), ("high_fibre", 5.99, 80, NOT_ELIGIBLE),
-    ("high_fibre", 1.2, 9.4, ELIGIBLE),             # 1.2 g in 40 kcal = 3 g/100 kcal exactly
-    ("high_fibre", 1.2, 9.5, NOT_ELIGIBLE),
-])
+@pytest.mark.parametrize(
+    "claim, fibre, sugars, expected",
+    [
+        ("source_of_fibre", 3, 80, ELIGIBLE),
+        ("source_of_fibre", 2.99, 80, NOT_ELIGIBLE),
+        ("source_of_fibre", 3.01, 80, ELIGIBLE),
+        ("source_of_fibre", 1.2, 19.4, ELIGIBLE),  # 1.2 g in 80 kcal = 1.5 g/100 kcal exactly
+        ("source_of_fibre", 1.2, 19.5, NOT_ELIGIBLE),  # 80.4 kcal -> 1.49 g/100 kcal
+        ("high_fibre", 6, 80, ELIGIBLE),
+        ("high_fibre", 5.99, 80, NOT_ELIGIBLE),
+        ("high_fibre", 1.2, 9.4, ELIGIBLE),  # 1.2 g in 40 kcal = 3 g/100 kcal exactly
+        ("high_fibre", 1.2, 9.5, NOT_ELIGIBLE),
+    ],
+)
 def test_fibre_claims(lab, claim, fibre, sugars, expected):
     a = lab.one({"fibre_soluble": fibre, "sugars": sugars})
     assert verdict(a, claim).verdict == expected
 
 
 # 'source of protein' >= 12 % and 'high protein' >= 20 % of energy from protein (protein x 4 kcal / total kcal)
-@pytest.mark.parametrize("claim, protein, sugars, expected", [
-    ("source_of_protein", 12, 88, ELIGIBLE), ("source_of_protein", 12, 87.9, ELIGIBLE), ("source_of_protein", 12, 88.1, NOT_ELIGIBLE),
-    ("high_protein", 20, 80, ELIGIBLE), ("high_protein", 20, 79.9, ELIGIBLE), ("high_protein", 20, 80.1, NOT_ELIGIBLE),
-])
+@pytest.mark.parametrize(
+    "claim, protein, sugars, expected",
+    [
+        ("source_of_protein", 12, 88, ELIGIBLE),
+        ("source_of_protein", 12, 87.9, ELIGIBLE),
+        ("source_of_protein", 12, 88.1, NOT_ELIGIBLE),
+        ("high_protein", 20, 80, ELIGIBLE),
+        ("high_protein", 20, 79.9, ELIGIBLE),
+        ("high_protein", 20, 80.1, NOT_ELIGIBLE),
+    ],
+)
 def test_protein_claims(lab, claim, protein, sugars, expected):
     assert verdict(lab.one({"protein": protein, "sugars": sugars}), claim).verdict == expected
 
@@ -243,14 +277,21 @@ def test_protein_claims(lab, claim, protein, sugars, expected):
 # 'source of [vitamin/mineral]': 15 % of the NRV per 100 g (Reg. (EU) No 1169/2011 Annex XIII Part A points 1-2);
 # 'high': twice that (from memory — verify). NRVs: A 800 ug, D 5 ug, E 12 mg, K 75 ug, potassium 2000 mg,
 # calcium 800 mg, iron 14 mg.
-VITAMINS = [("vitamin_a", 120, 1), ("vitamin_d", 0.75, 0.01), ("vitamin_e", 1.8, 0.01), ("vitamin_k", 11.25, 0.01),
-            ("potassium", 300, 1), ("calcium", 120, 1), ("iron", 2.1, 0.01)]
+VITAMINS = [
+    ("vitamin_a", 120, 1),
+    ("vitamin_d", 0.75, 0.01),
+    ("vitamin_e", 1.8, 0.01),
+    ("vitamin_k", 11.25, 0.01),
+    ("potassium", 300, 1),
+    ("calcium", 120, 1),
+    ("iron", 2.1, 0.01),
+]
 
 
 @pytest.mark.parametrize("comp, source, step", VITAMINS)
 def test_vitamin_mineral_claims(lab, comp, source, step):
     for level, claim in ((source, f"source_of_{comp}"), (2 * source, f"high_{comp}")):
-        base = {"ash": 5, "starch": 50}   # minerals are part of ash
+        base = {"ash": 5, "starch": 50}  # minerals are part of ash
         assert verdict(lab.one({**base, comp: level}), claim).verdict == ELIGIBLE
         assert verdict(lab.one({**base, comp: level + step}), claim).verdict == ELIGIBLE
         assert verdict(lab.one({**base, comp: level - step}), claim).verdict == NOT_ELIGIBLE
@@ -263,6 +304,7 @@ def test_unknown_value_cannot_tell(lab):
 
 
 # ----------------------------------------------------------------- 'with no added sugars'
+
 
 def test_no_added_sugars_eligible_with_naturally_occurring_text(lab):
     # 1924/2006 Annex 'with no added sugars': CONTAINS NATURALLY OCCURRING SUGARS where sugars are present
@@ -283,15 +325,19 @@ def test_no_added_sugars_fails_with_an_added_sugar(lab):
 
 # ------------------------------------------------------------------------ comparative claims
 
+
 # 'reduced [nutrient]' >= 30 % (sodium/salt 25 %), Art. 9: compared with the reference formula, same quantity
-@pytest.mark.parametrize("claim, comp, ref, at, outside", [
-    ("reduced_fat", "fat", 10, 7, 7.01),
-    ("light_fat", "fat", 10, 7, 7.01),
-    ("reduced_salt", "sodium", 400, 300, 301),
-    ("light_salt", "sodium", 400, 300, 301),
-    ("energy_reduced", "sugars", 50, 35, 35.1),     # energy follows sugars: 30 % less energy
-    ("light_energy", "sugars", 50, 35, 35.1),
-])
+@pytest.mark.parametrize(
+    "claim, comp, ref, at, outside",
+    [
+        ("reduced_fat", "fat", 10, 7, 7.01),
+        ("light_fat", "fat", 10, 7, 7.01),
+        ("reduced_salt", "sodium", 400, 300, 301),
+        ("light_salt", "sodium", 400, 300, 301),
+        ("energy_reduced", "sugars", 50, 35, 35.1),  # energy follows sugars: 30 % less energy
+        ("light_energy", "sugars", 50, 35, 35.1),
+    ],
+)
 def test_reduced_claims(lab, claim, comp, ref, at, outside):
     base = {"water": 10}
     assert verdict(lab.one({**base, comp: at}, reference={**base, comp: ref}), claim).verdict == ELIGIBLE
@@ -329,13 +375,18 @@ def test_reduced_sugars_needs_energy_not_higher(lab):
 def test_reduced_saturated_fat_trans_not_higher(lab):
     # 1047/2012: saturated + trans >= 30 % less, and trans fatty acids not above the similar product (from memory)
     ref = {"fat": 10, "saturated_fa": 5, "trans_fa": 0.1}
-    assert verdict(lab.one({"fat": 10, "saturated_fa": 3.4, "trans_fa": 0.1}, reference=ref),
-                   "reduced_saturated_fat").verdict == ELIGIBLE
+    assert (
+        verdict(
+            lab.one({"fat": 10, "saturated_fa": 3.4, "trans_fa": 0.1}, reference=ref), "reduced_saturated_fat"
+        ).verdict
+        == ELIGIBLE
+    )
     c = verdict(lab.one({"fat": 10, "saturated_fa": 3.0, "trans_fa": 0.2}, reference=ref), "reduced_saturated_fat")
     assert c.verdict == NOT_ELIGIBLE and "trans_fat" in c.failed[0]
 
 
 # -------------------------------------------------------------------------------- statements
+
 
 def _polyol_food(lab, maltitol_g, kinds=("polyol", "sweetener", "additive")):
     m = lab.ingredient("maltitol", per_100g={"maltitol": 100}, kinds=list(kinds), substance="maltitol")
@@ -399,17 +450,22 @@ def test_nonabsorbed_lipid_flags_novel_food(lab):
 
 def test_salatrim_statements(lab):
     # Union list entry 'Salatrims' (from Decision 2003/867/EC): designation, GI statement, not for children
-    a = lab.one({"partial_lipid": 20, "starch": 50}, substance="salatrim",
-                lipid_energy="{kj_per_g: 25, kcal_per_g: 6, kind: salatrim, source: test data}")
+    a = lab.one(
+        {"partial_lipid": 20, "starch": 50},
+        substance="salatrim",
+        lipid_energy="{kj_per_g: 25, kcal_per_g: 6, kind: salatrim, source: test data}",
+    )
     assert {"salatrim_designation", "salatrim_gastrointestinal", "salatrim_not_for_children"} <= statement_ids(a)
 
 
 # --------------------------------------------------------------------------------- allergens
 
+
 def test_allergen_through_subformula(lab):
     # Annex II point 1 (cereals containing gluten: the cereal is named) reaching the product through a sub-formula
-    flour = lab.ingredient("flour", label="Wheat flour", per_100g={"starch": 70, "protein": 10, "water": 14},
-                           allergens=["wheat"])
+    flour = lab.ingredient(
+        "flour", label="Wheat flour", per_100g={"starch": 70, "protein": 10, "water": 14}, allergens=["wheat"]
+    )
     salt = lab.ingredient("salt", label="Salt", per_100g={"sodium": 39300, "ash": 100})
     lab.formula([(flour, 95), (salt, 5)], kind="subformula", ident="crumb", name="Crumb", label_name="Crumb")
     potato = lab.ingredient("potato", label="Potato", per_100g={"starch": 15, "water": 85})
@@ -418,7 +474,7 @@ def test_allergen_through_subformula(lab):
     assert a.allergens["declared"] == ["wheat"]
     assert a.allergens["statement"] == "Contains: wheat."
     assert a.allergens["emphasis"] == "bold" and a.allergens["summary"] == "when_not_in_list"
-    assert "WHEAT FLOUR" in a.ingredient_list["text"]   # emphasised inside the compound ingredient
+    assert "WHEAT FLOUR" in a.ingredient_list["text"]  # emphasised inside the compound ingredient
 
 
 def test_allergens_unknown_are_flagged(lab):
@@ -462,8 +518,10 @@ def test_quid_demo_kettle_crisps_potato_over_100(tmp_path, pack):
     lib = load_library(DEMO / "ingredients")
     text = (DEMO / "hl_kettle_sea_salt.yaml").read_text(encoding="utf-8")
     p = tmp_path / "named.yaml"
-    p.write_text(text.replace("name: Kettle crisps, sea salt", "name: Kettle crisps made from potatoes, sea salt"),
-                 encoding="utf-8")
+    p.write_text(
+        text.replace("name: Kettle crisps, sea salt", "name: Kettle crisps made from potatoes, sea salt"),
+        encoding="utf-8",
+    )
     comps = compose(load_formula(p, lib, search=[DEMO / "subformulas"]), lib)
     for c in comps:
         a = assess(c, pack, declare(c, pack))
@@ -478,8 +536,9 @@ def test_quid_demo_kettle_crisps_potato_over_100(tmp_path, pack):
 def test_added_water_by_finished_weight_and_omitted_up_to_5_percent(lab):
     # Annex VII Part A point 1: added water by its weight in the finished product (added water less the water
     # lost); it need not be taken into consideration when not more than 5 % of the finished product.
-    flour = lab.ingredient("flour", label="Wheat flour", per_100g={"starch": 75, "protein": 11, "water": 14},
-                           allergens=["wheat"])
+    flour = lab.ingredient(
+        "flour", label="Wheat flour", per_100g={"starch": 75, "protein": 11, "water": 14}, allergens=["wheat"]
+    )
     water = lab.ingredient("water", label="Water", per_100g={"water": 100}, kinds=["water"])
     bake = """\
 processing:

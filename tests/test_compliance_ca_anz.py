@@ -1,5 +1,5 @@
 """Lab results against the label: the compliance sections of the Canada and ANZ packs
-(rules/markets/ca_fdr_b01_401.yaml, rules/markets/anz_fsc_1_2_8.yaml), through ``labelcalc.verify``.
+(rules/markets/ca_fdr_b01_401.yaml, rules/markets/anz_fsc_1_2_8.yaml), through ``labelcalc.lab.verify``.
 
 Each rule is tested at its limit, just inside and just outside, on tiny formulas built in tmp_path.
 The product has a 50 g serving, so a per-serving figure is half the per-100 g one (the certificate is
@@ -23,22 +23,33 @@ from __future__ import annotations
 import pytest
 import yaml
 
-from labelcalc.composition import compose
-from labelcalc.declare import declare
 from labelcalc.errors import InputError
-from labelcalc.formula import load_formula
-from labelcalc.lab import LabFile
-from labelcalc.library import load_library
-from labelcalc.rulepack import load_packs
-from labelcalc.verify import CLOSE, NOT_JUDGED, OUTSIDE, WITHIN, verify
+from labelcalc.formulation.composition import compose
+from labelcalc.intake.formula import load_formula
+from labelcalc.intake.library import load_library
+from labelcalc.lab.certificates import LabFile
+from labelcalc.lab.verify import CLOSE, NOT_JUDGED, OUTSIDE, WITHIN, verify
+from labelcalc.labelling.declare import declare
+from labelcalc.labelling.rulepack import load_packs
 
 PACKS = load_packs()
 CA, ANZ = PACKS["ca"], PACKS["anz"]
 SERVING_G = 50.0
 
 # invented round numbers, per 100 g
-FOOD = {"protein": 20, "fat": 40, "saturated_fa": 8, "trans_fa": 0, "sugars": 10, "starch": 20,
-        "fibre_insoluble": 4, "sodium": 400, "calcium": 100, "cholesterol": 0, "ash": 1.5}
+FOOD = {
+    "protein": 20,
+    "fat": 40,
+    "saturated_fa": 8,
+    "trans_fa": 0,
+    "sugars": 10,
+    "starch": 20,
+    "fibre_insoluble": 4,
+    "sodium": 400,
+    "calcium": 100,
+    "cholesterol": 0,
+    "ash": 1.5,
+}
 PREMIX = {"calcium": 10000, "starch": 50, "ash": 30}
 
 
@@ -46,8 +57,14 @@ def _ingredient(per100, *, kinds=()):
     body = dict(per100)
     solids = sum(v for k, v in body.items() if k in ("protein", "fat", "sugars", "starch", "fibre_insoluble", "ash"))
     body["water"] = round(100 - solids - 0.001, 3)
-    return {"label_name": "Test food", "source": "test data (invented round numbers)", "unlisted": "zero",
-            "allergens": [], "kinds": list(kinds), "per_100g": body}
+    return {
+        "label_name": "Test food",
+        "source": "test data (invented round numbers)",
+        "unlisted": "zero",
+        "allergens": [],
+        "kinds": list(kinds),
+        "per_100g": body,
+    }
 
 
 def _product(tmp_path, pack, *, fortified=False):
@@ -61,9 +78,15 @@ def _product(tmp_path, pack, *, fortified=False):
         batch = [{"ingredient": "test_food", "amount": "99 g"}, {"ingredient": "ca_premix", "amount": "1 g"}]
     (d / "lib.yaml").write_text(yaml.safe_dump({"ingredients": ings}, sort_keys=False), encoding="utf-8")
     library = load_library(d)
-    doc = {"product": {"id": "lab_test", "name": "Lab test product", "category": "snacks",
-                       "serving": {"size": f"{SERVING_G:g} g", "household": "1 piece"}},
-           "batch": batch}
+    doc = {
+        "product": {
+            "id": "lab_test",
+            "name": "Lab test product",
+            "category": "snacks",
+            "serving": {"size": f"{SERVING_G:g} g", "household": "1 piece"},
+        },
+        "batch": batch,
+    }
     p = tmp_path / "lab_test.yaml"
     p.write_text(yaml.safe_dump(doc, sort_keys=False), encoding="utf-8")
     (c,) = compose(load_formula(p, library), library)
@@ -71,8 +94,7 @@ def _product(tmp_path, pack, *, fortified=False):
 
 
 def _lab(*results, product_id="lab_test"):
-    return LabFile.model_validate({"certificate": {"product_id": product_id},
-                                   "results": [dict(r) for r in results]})
+    return LabFile.model_validate({"certificate": {"product_id": product_id}, "results": [dict(r) for r in results]})
 
 
 def _row(report, nutrient):
@@ -83,22 +105,32 @@ def _declared(decl, nutrient, basis):
     return float(decl.row(nutrient).declared[basis].number)
 
 
-ANALYTE_UNIT = {"fat": ("fat", "g"), "saturated_fat": ("saturated_fat", "g"), "trans_fat": ("trans_fat", "g"),
-                "sodium": ("sodium", "mg"), "sugars": ("sugars", "g"), "energy_kcal": ("energy_kcal", "kcal"),
-                "energy_kj": ("energy_kj", "kJ"), "protein": ("protein", "g"), "fibre": ("fibre", "g"),
-                "calcium": ("calcium", "mg")}
+ANALYTE_UNIT = {
+    "fat": ("fat", "g"),
+    "saturated_fat": ("saturated_fat", "g"),
+    "trans_fat": ("trans_fat", "g"),
+    "sodium": ("sodium", "mg"),
+    "sugars": ("sugars", "g"),
+    "energy_kcal": ("energy_kcal", "kcal"),
+    "energy_kj": ("energy_kj", "kJ"),
+    "protein": ("protein", "g"),
+    "fibre": ("fibre", "g"),
+    "calcium": ("calcium", "mg"),
+}
 
 
 def _judge(comp, decl, nutrient, per_100g, *, margin=0.0, **extra):
     analyte, unit = ANALYTE_UNIT[nutrient]
-    rep = verify(comp, decl, _lab({"analyte": analyte, "value": per_100g, "unit": unit, **extra}),
-                 margin_percent=margin)
+    rep = verify(
+        comp, decl, _lab({"analyte": analyte, "value": per_100g, "unit": unit, **extra}), margin_percent=margin
+    )
     return _row(rep, nutrient), rep
 
 
 # ---------------------------------------------------------------------------------------------------
 # Canada
 # ---------------------------------------------------------------------------------------------------
+
 
 @pytest.fixture
 def ca(tmp_path):
@@ -116,8 +148,9 @@ def _per100(per_serving):
 
 # CFIA compliance test, Summary: not more than 120 % of the declared value (figure read; the list of
 # nutrients — Calories, fat, saturated and trans fat, cholesterol, sodium, sugars — from memory — verify)
-@pytest.mark.parametrize("nutrient, step", [("fat", 0.1), ("saturated_fat", 0.1), ("sodium", 1), ("sugars", 0.1),
-                                            ("energy_kcal", 1)])
+@pytest.mark.parametrize(
+    "nutrient, step", [("fat", 0.1), ("saturated_fat", 0.1), ("sodium", 1), ("sugars", 0.1), ("energy_kcal", 1)]
+)
 def test_ca_upper_limit_120_percent(ca, nutrient, step):
     comp, decl = ca
     dv = _declared(decl, nutrient, "per_serving")
@@ -126,9 +159,9 @@ def test_ca_upper_limit_120_percent(ca, nutrient, step):
     inside, _ = _judge(comp, decl, nutrient, _per100(hi - step))
     outside, rep = _judge(comp, decl, nutrient, _per100(hi + step))
     assert at.rule == inside.rule == outside.rule == "upper_limit"
-    assert at.basis == "per_serving"                      # FDR B.01.401(1.1): per serving of stated size
-    assert at.allowed == (None, pytest.approx(hi))        # no lower limit for a nutrient of concern
-    assert at.verdict == WITHIN                           # at the limit: not more than 120 %
+    assert at.basis == "per_serving"  # FDR B.01.401(1.1): per serving of stated size
+    assert at.allowed == (None, pytest.approx(hi))  # no lower limit for a nutrient of concern
+    assert at.verdict == WITHIN  # at the limit: not more than 120 %
     assert inside.verdict == WITHIN
     assert outside.verdict == OUTSIDE
     assert "under-states" in outside.risk
@@ -172,7 +205,7 @@ def test_ca_protein_fibre_80_percent(ca, nutrient, step):
     outside, _ = _judge(comp, decl, nutrient, _per100(lo - step))
     assert at.rule == "protein_carbohydrate_fibre"
     assert at.allowed == (pytest.approx(lo), None)
-    assert at.verdict == WITHIN                           # at least 80 %
+    assert at.verdict == WITHIN  # at least 80 %
     assert inside.verdict == WITHIN
     assert outside.verdict == OUTSIDE
     assert "over-states" in outside.risk
@@ -184,7 +217,7 @@ def test_ca_protein_fibre_80_percent(ca, nutrient, step):
 def test_ca_naturally_occurring_mineral_80_percent(ca):
     # CFIA compliance test, Summary: naturally occurring vitamins and minerals at least 80 % of declared
     comp, decl = ca
-    dv = _declared(decl, "calcium", "per_serving")        # calcium from the food itself (no fortificant)
+    dv = _declared(decl, "calcium", "per_serving")  # calcium from the food itself (no fortificant)
     lo = dv * 0.8
     at, _ = _judge(comp, decl, "calcium", _per100(lo))
     inside, _ = _judge(comp, decl, "calcium", _per100(lo + 1))
@@ -210,8 +243,10 @@ def test_ca_added_mineral_100_percent(ca_fortified):
 
 def test_ca_added_vs_natural_same_result(ca, ca_fortified):
     # CFIA: the class follows the source of the nutrient (fortificant ingredient -> added)
-    for (comp, decl), rule, verdict in ((ca, "naturally_occurring_vitamins_minerals", WITHIN),
-                                        (ca_fortified, "added_vitamins_minerals", OUTSIDE)):
+    for (comp, decl), rule, verdict in (
+        (ca, "naturally_occurring_vitamins_minerals", WITHIN),
+        (ca_fortified, "added_vitamins_minerals", OUTSIDE),
+    ):
         dv = _declared(decl, "calcium", "per_serving")
         row, _ = _judge(comp, decl, "calcium", _per100(dv * 0.9))
         assert (row.rule, row.verdict) == (rule, verdict)
@@ -259,24 +294,35 @@ def test_ca_wrong_certificate(ca):
 # Australia and New Zealand
 # ---------------------------------------------------------------------------------------------------
 
+
 @pytest.fixture
 def anz(tmp_path):
     return _product(tmp_path, ANZ)
 
 
 # Common practice ±20 % of the declared average quantity per 100 g (no tolerance in the Code: Std 1.1.1—6)
-@pytest.mark.parametrize("nutrient, step", [("fat", 0.1), ("protein", 0.1), ("sugars", 0.1), ("sodium", 1),
-                                            ("saturated_fat", 0.1), ("energy_kj", 1)])
+@pytest.mark.parametrize(
+    "nutrient, step",
+    [("fat", 0.1), ("protein", 0.1), ("sugars", 0.1), ("sodium", 1), ("saturated_fat", 0.1), ("energy_kj", 1)],
+)
 def test_anz_screen_both_sides(anz, nutrient, step):
     comp, decl = anz
     dv = _declared(decl, nutrient, "per_100g")
     lo, hi = dv * 0.8, dv * 1.2
-    results = {name: _judge(comp, decl, nutrient, v)[0] for name, v in
-               (("at_lo", lo), ("in_lo", lo + step), ("out_lo", lo - step),
-                ("at_hi", hi), ("in_hi", hi - step), ("out_hi", hi + step))}
+    results = {
+        name: _judge(comp, decl, nutrient, v)[0]
+        for name, v in (
+            ("at_lo", lo),
+            ("in_lo", lo + step),
+            ("out_lo", lo - step),
+            ("at_hi", hi),
+            ("in_hi", hi - step),
+            ("out_hi", hi + step),
+        )
+    }
     first = results["at_lo"]
     assert first.rule == "average_quantity_screen"
-    assert first.basis == "per_100g"                      # the unit quantity of Std 1.2.8—6(1)(d)
+    assert first.basis == "per_100g"  # the unit quantity of Std 1.2.8—6(1)(d)
     assert first.allowed == (pytest.approx(lo), pytest.approx(hi))
     for name in ("at_lo", "in_lo", "at_hi", "in_hi"):
         assert results[name].verdict == WITHIN, name
@@ -299,7 +345,7 @@ def test_anz_uncertainty_widens_band(anz):
     assert bare.verdict == OUTSIDE
     assert widened.verdict == WITHIN
     assert widened.allowed == (pytest.approx(dv * 0.8 - 1.0), pytest.approx(hi + 1.0))
-    assert widened_pct.verdict == WITHIN                  # 2 % of 48.5 g = 0.97 g
+    assert widened_pct.verdict == WITHIN  # 2 % of 48.5 g = 0.97 g
     assert beyond.verdict == OUTSIDE
     assert any("expanded uncertainty" in n for n in widened.notes)
 
@@ -320,5 +366,12 @@ def test_instruments_added():
     anz_ids = {i.id for i in ANZ.pack.instruments}
     assert {"FSC 1.1.1", "FSC 1.2.3", "FSC 1.2.4", "FSC 1.2.7", "FSC 1.2.10", "FSC S4", "FSC S9"} <= anz_ids
     ca_ids = {i.id for i in CA.pack.instruments}
-    assert {"TPNCSC", "FDR B.01.010.1 ff.", "FDR B.01.350 ff.", "FDR B.16.016", "CFIA NLCT", "Food and Drugs Act s. 5"} <= ca_ids
+    assert {
+        "TPNCSC",
+        "FDR B.01.010.1 ff.",
+        "FDR B.01.350 ff.",
+        "FDR B.16.016",
+        "CFIA NLCT",
+        "Food and Drugs Act s. 5",
+    } <= ca_ids
     assert "CXS 1-1985" in {i.id for i in PACKS["codex"].pack.instruments}

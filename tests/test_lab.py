@@ -4,36 +4,47 @@ from __future__ import annotations
 
 import pytest
 
-from labelcalc.calibrate import calibrate, write_calibrated
-from labelcalc.composition import compose
-from labelcalc.declare import declare
 from labelcalc.errors import InputError
-from labelcalc.formula import load_formula
-from labelcalc.lab import LabFile, load_lab
-from labelcalc.rulepack import get_packs
-from labelcalc.verify import CLOSE, OUTSIDE, WITHIN, verify
+from labelcalc.formulation.composition import compose
+from labelcalc.intake.formula import load_formula
+from labelcalc.lab.calibrate import calibrate, write_calibrated
+from labelcalc.lab.certificates import LabFile, load_lab
+from labelcalc.lab.verify import CLOSE, OUTSIDE, WITHIN, verify
+from labelcalc.labelling.declare import declare
+from labelcalc.labelling.rulepack import get_packs
 
 
 def lab(pid, **results):
-    return LabFile.model_validate({"certificate": {"product_id": pid}, "results": [
-        {"analyte": k, "value": v[0], "unit": v[1], **({"uncertainty": v[2]} if len(v) > 2 else {})}
-        for k, v in results.items()]})
+    return LabFile.model_validate(
+        {
+            "certificate": {"product_id": pid},
+            "results": [
+                {"analyte": k, "value": v[0], "unit": v[1], **({"uncertainty": v[2]} if len(v) > 2 else {})}
+                for k, v in results.items()
+            ],
+        }
+    )
 
 
 @pytest.fixture
 def food(write, lib_dir, tmp_path):
     """A one-ingredient food: 10 g fat, 5 g fibre, 400 mg sodium per 100 g; serving 100 g (per serving = per 100 g)."""
-    from labelcalc.library import load_library
+    from labelcalc.intake.library import load_library
 
     (lib_dir / "food.yaml").write_text(
         "ingredients:\n  food:\n    label_name: Food\n    source: test\n    unlisted: zero\n"
         "    per_100g: {water: 30, fat: 10, saturated_fa: 2, sugars: 5, starch: 40, fibre_insoluble: 5, protein: 8,"
-        " ash: 2, sodium: 400}\n    allergens: []\n", encoding="utf-8")
+        " ash: 2, sodium: 400}\n    allergens: []\n",
+        encoding="utf-8",
+    )
     library = load_library(lib_dir)
-    p = write("food_p.yaml", """
+    p = write(
+        "food_p.yaml",
+        """
         product: {id: food_p, name: Food, category: snacks, serving: {size: 100 g}}
         batch: [{ingredient: food, amount: 100 g}]
-    """)
+    """,
+    )
     (c,) = compose(load_formula(p, library), library)
     return c
 
@@ -51,8 +62,10 @@ def test_us_upper_limit_120_percent(food, analysed, expected):
     assert r.verdict == expected
 
 
-@pytest.mark.parametrize("analysed, margin, expected", [(4.0, 0, WITHIN), (3.99, 0, OUTSIDE), (4.1, 0, WITHIN),
-                                                         (4.1, 5, CLOSE), (4.3, 5, WITHIN)])
+@pytest.mark.parametrize(
+    "analysed, margin, expected",
+    [(4.0, 0, WITHIN), (3.99, 0, OUTSIDE), (4.1, 0, WITHIN), (4.1, 5, CLOSE), (4.3, 5, WITHIN)],
+)
 def test_us_class_ii_80_percent(food, analysed, margin, expected):
     # 21 CFR 101.9(g)(4)(ii): a naturally occurring nutrient must reach 80 % of the declared value (5 g fiber -> 4 g);
     # "too close" when within the user's margin (5 % of the declared 5 g = 0.25 g) of that limit
@@ -67,19 +80,24 @@ def test_us_uncertainty_widens_upper_limit(food):
     assert r.verdict == WITHIN and r.allowed[1] == pytest.approx(12.5)
 
 
-@pytest.mark.parametrize("declared_fat, analysed, expected", [
-    (9.9, 11.4, WITHIN),     # below 10 g: ±1.5 g band -> up to 11.4 g
-    (9.9, 11.41, OUTSIDE),
-    (10.0, 12.0, WITHIN),    # 10-40 g: ±20 % -> up to 12.0 g
-    (10.0, 12.01, OUTSIDE),
-])
+@pytest.mark.parametrize(
+    "declared_fat, analysed, expected",
+    [
+        (9.9, 11.4, WITHIN),  # below 10 g: ±1.5 g band -> up to 11.4 g
+        (9.9, 11.41, OUTSIDE),
+        (10.0, 12.0, WITHIN),  # 10-40 g: ±20 % -> up to 12.0 g
+        (10.0, 12.01, OUTSIDE),
+    ],
+)
 def test_eu_band_switch_at_10_g(write, lib_dir, declared_fat, analysed, expected):
     # Commission guidance on tolerances (December 2012), tolerance table for fat (from memory — verify)
-    from labelcalc.library import load_library
+    from labelcalc.intake.library import load_library
 
     (lib_dir / "f2.yaml").write_text(
         "ingredients:\n  f2:\n    label_name: F2\n    source: test\n    unlisted: zero\n"
-        f"    per_100g: {{water: 40, fat: {declared_fat}, starch: 50}}\n    allergens: []\n", encoding="utf-8")
+        f"    per_100g: {{water: 40, fat: {declared_fat}, starch: 50}}\n    allergens: []\n",
+        encoding="utf-8",
+    )
     library = load_library(lib_dir)
     p = write("f2p.yaml", "product: {id: f2p, name: F2}\nbatch: [{ingredient: f2, amount: 100 g}]\n")
     (c,) = compose(load_formula(p, library), library)
@@ -97,7 +115,9 @@ def test_certificate_for_another_product_is_refused(food):
 
 def test_unit_mismatch_and_unknown_analyte(tmp_path):
     p = tmp_path / "c.yaml"
-    p.write_text("certificate: {product_id: x}\nresults:\n  - {analyte: sodium, value: 0.4, unit: g}\n", encoding="utf-8")
+    p.write_text(
+        "certificate: {product_id: x}\nresults:\n  - {analyte: sodium, value: 0.4, unit: g}\n", encoding="utf-8"
+    )
     with pytest.raises(InputError, match="sodium is reported in g; labelcalc expects mg"):
         load_lab(p)
     p.write_text("certificate: {product_id: x}\nresults:\n  - {analyte: fats, value: 4, unit: g}\n", encoding="utf-8")

@@ -6,9 +6,9 @@ from decimal import Decimal
 
 import pytest
 
-from labelcalc.energy import load_factor_set
-from labelcalc.rounding import apply_rounding
-from labelcalc.rulepack import load_packs
+from labelcalc.formulation.energy import load_factor_set
+from labelcalc.labelling.rounding import apply_rounding
+from labelcalc.labelling.rulepack import load_packs
 
 PACKS = load_packs()
 CONF = {"confirmed", "secondary", "from memory — verify", "derived", "common practice"}
@@ -28,7 +28,7 @@ def test_header_and_citations(pack):
     assert "DRAFT" in pack.pack.draft_notice.upper()
     for r in pack.rows:
         assert r.citation.strip() and r.confidence in CONF
-    for k, v in pack.reference_values.items():
+    for _k, v in pack.reference_values.items():
         assert v.amount > 0 and v.citation.strip() and v.confidence in CONF
 
 

@@ -9,9 +9,9 @@ import pytest
 from pypdf import PdfReader
 from reportlab.pdfbase import pdfmetrics
 
-from labelcalc.panelpdf import BOLD, CAUTION, FONT, _fonts, wrap_lines
-from labelcalc.panelrun import panels_for
-from labelcalc.rulepack import get_packs
+from labelcalc.labelling.rulepack import get_packs
+from labelcalc.outputs.panelpdf import BOLD, CAUTION, FONT, _fonts, wrap_lines
+from labelcalc.outputs.panelrun import panels_for
 
 ROOT = Path(__file__).resolve().parent.parent
 DEMO = ROOT / "demo_products"
@@ -24,14 +24,16 @@ def _pages(pdf: Path) -> list[str]:
 @pytest.fixture(scope="module")
 def written(tmp_path_factory, demo_lib):
     out = tmp_path_factory.mktemp("panels")
-    files, failures = panels_for(DEMO / "hl_gummy_sugar_free.yaml", demo_lib, get_packs(["us", "eu"]), out, "2026-12-02")
+    files, failures = panels_for(
+        DEMO / "hl_gummy_sugar_free.yaml", demo_lib, get_packs(["us", "eu"]), out, "2026-12-02"
+    )
     return out, files, failures
 
 
 def test_every_declared_value_and_caution_on_the_panel_page(written, demo_lib):
-    from labelcalc.composition import compose
-    from labelcalc.declare import declare
-    from labelcalc.formula import load_formula
+    from labelcalc.formulation.composition import compose
+    from labelcalc.intake.formula import load_formula
+    from labelcalc.labelling.declare import declare
 
     out, files, failures = written
     assert not failures
@@ -52,8 +54,8 @@ def test_every_declared_value_and_caution_on_the_panel_page(written, demo_lib):
 def test_statements_on_the_panel_page(written):
     out, _, _ = written
     first = _pages(out / "hl_gummy_sugar_free.eu.pdf")[0]
-    assert "laxative" in first.lower()          # Reg. (EU) No 1169/2011 Annex III point 2.4 (polyols above 10 %)
-    assert "phenylalanine" in first.lower()     # Annex III point 2.3 (aspartame)
+    assert "laxative" in first.lower()  # Reg. (EU) No 1169/2011 Annex III point 2.4 (polyols above 10 %)
+    assert "phenylalanine" in first.lower()  # Annex III point 2.3 (aspartame)
 
 
 def test_pdf_is_byte_identical(tmp_path, demo_lib):
@@ -78,14 +80,19 @@ def test_long_ingredient_list_wraps(tmp_path, write, lib):
 
 
 def test_long_ingredient_list_in_pdf(tmp_path, lib_dir, write):
-    from labelcalc.library import load_library
+    from labelcalc.intake.library import load_library
 
-    extra = "\n".join(f"  ing{i}:\n    label_name: Ingredient {i} with a long supplier name\n    source: test\n"
-                      f"    unlisted: zero\n    per_100g: {{starch: 90, water: 10}}\n    allergens: []" for i in range(40))
+    extra = "\n".join(
+        f"  ing{i}:\n    label_name: Ingredient {i} with a long supplier name\n    source: test\n"
+        f"    unlisted: zero\n    per_100g: {{starch: 90, water: 10}}\n    allergens: []"
+        for i in range(40)
+    )
     (lib_dir / "many.yaml").write_text("ingredients:\n" + extra + "\n", encoding="utf-8")
     lib = load_library(lib_dir)
     batch = "\n".join(f"  - {{ingredient: ing{i}, amount: {100 - i} g}}" for i in range(40))
-    p = write("many.yaml", "product: {id: many, name: Many, category: snacks, serving: {size: 30 g}}\nbatch:\n" + batch + "\n")
+    p = write(
+        "many.yaml", "product: {id: many, name: Many, category: snacks, serving: {size: 30 g}}\nbatch:\n" + batch + "\n"
+    )
     files, _ = panels_for(p, lib, get_packs(["eu"]), tmp_path / "out", "2026-12-02")
     text = _pages(tmp_path / "out" / "many.eu.pdf")[0]
     for i in range(40):
@@ -93,10 +100,13 @@ def test_long_ingredient_list_in_pdf(tmp_path, lib_dir, write):
 
 
 def test_unsafe_product_id_stays_inside(tmp_path, lib, write):
-    p = write("evil.yaml", """
+    p = write(
+        "evil.yaml",
+        """
         product: {id: "..%2F..%2Fevil", name: Evil, category: snacks, serving: {size: 30 g}}
         batch: [{ingredient: flour, amount: 100 g}]
-    """)
+    """,
+    )
     out = tmp_path / "out"
     files, _ = panels_for(p, lib, get_packs(["eu"]), out, "2026-12-02")
     for f in files:
@@ -105,7 +115,7 @@ def test_unsafe_product_id_stays_inside(tmp_path, lib, write):
 
 @pytest.mark.parametrize("ident", ["../../etc/passwd", "a/b", "..", ".hidden", "x\\y", "ok_id"])
 def test_safe_names_never_escape(tmp_path, ident):
-    from labelcalc.safenames import inside, safe_name
+    from labelcalc.files import inside, safe_name
 
     name = safe_name(ident)
     assert "/" not in name and "\\" not in name and not name.startswith(".")
@@ -113,6 +123,6 @@ def test_safe_names_never_escape(tmp_path, ident):
 
 
 def test_safe_names_do_not_collide():
-    from labelcalc.safenames import safe_name
+    from labelcalc.files import safe_name
 
     assert safe_name("a/b") != safe_name("a_b") != safe_name("a?b")

@@ -5,15 +5,14 @@ from __future__ import annotations
 import textwrap
 
 import pytest
+from conftest import TEST_LIBRARY
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from labelcalc.composition import compose
-from labelcalc.energy import energy_of, load_factor_set
-from labelcalc.formula import load_formula
-from labelcalc.library import load_library
-
-from conftest import TEST_LIBRARY
+from labelcalc.formulation.composition import compose
+from labelcalc.formulation.energy import energy_of, load_factor_set
+from labelcalc.intake.formula import load_formula
+from labelcalc.intake.library import load_library
 
 amount = st.floats(min_value=1, max_value=2000, allow_nan=False)
 
@@ -34,9 +33,14 @@ def _formula(env, name, body):
 
 
 @settings(max_examples=40, deadline=None)
-@given(tuber=amount, flour=amount, loss=st.floats(min_value=0, max_value=60), uptake=st.floats(min_value=0, max_value=40))
+@given(
+    tuber=amount, flour=amount, loss=st.floats(min_value=0, max_value=60), uptake=st.floats(min_value=0, max_value=40)
+)
 def test_mass_is_conserved(env, tuber, flour, loss, uptake):
-    f, lib = _formula(env, "mass", f"""
+    f, lib = _formula(
+        env,
+        "mass",
+        f"""
         product: {{id: mass, name: Mass}}
         batch:
           - {{ingredient: tuber, amount: {tuber} g}}
@@ -45,7 +49,8 @@ def test_mass_is_conserved(env, tuber, flour, loss, uptake):
           - step: frying
             moisture_loss: {{percent_of_batch: {loss}}}
             oil_uptake: {{oil: oil, per_100g: {uptake}}}
-    """)
+    """,
+    )
     water = 0.80 * tuber + 0.14 * flour
     if loss / 100 * (tuber + flour) > water:
         return  # refused by design (tested elsewhere)
@@ -69,13 +74,17 @@ def test_replacing_fat_by_non_absorbed_lipid(env, fat_g, replaced):
           - {{ingredient: oil, amount: {fat_g} g}}
     """
     f0, lib = _formula(env, "rep0", base)
-    f1, _ = _formula(env, "rep1", f"""
+    f1, _ = _formula(
+        env,
+        "rep1",
+        f"""
         product: {{id: rep, name: Rep}}
         batch:
           - {{ingredient: flour, amount: 100 g}}
           - {{ingredient: oil, amount: {fat_g - g + 1e-12} g}}
           - {{ingredient: spe, amount: {g + 1e-12} g}}
-    """)
+    """,
+    )
     (c0,), (c1,) = compose(f0, lib), compose(f1, lib)
     av = load_factor_set("available")
     scale = (100 + fat_g) / 100  # per-100 g figures of a batch of 100 + fat_g grams

@@ -7,12 +7,11 @@ import shutil
 import textwrap
 from pathlib import Path
 
+from conftest import TEST_LIBRARY
 from typer.testing import CliRunner
 
 from labelcalc.cli import app
-from labelcalc.rangerun import run_range
-
-from conftest import TEST_LIBRARY
+from labelcalc.ranges.rangerun import run_range
 
 runner = CliRunner()
 
@@ -86,7 +85,9 @@ def test_cli_exit_codes_and_tables(tmp_path):
     assert {r["product_id"] for r in rows} >= {"bad_yaml", "bad_ingredient"}
     assert not list(out.glob(".*tmp*"))  # atomic writes leave no temporary files
     good = make_range(tmp_path / "good", GOOD)
-    assert runner.invoke(app, ["range", str(good), "--market", "eu", "--out", str(tmp_path / "o2"), "-q"]).exit_code == 0
+    assert (
+        runner.invoke(app, ["range", str(good), "--market", "eu", "--out", str(tmp_path / "o2"), "-q"]).exit_code == 0
+    )
     bad = runner.invoke(app, ["range", str(good), "--market", "mars", "--out", str(tmp_path / "o3"), "-q"])
     assert bad.exit_code == 2 and "unknown market 'mars'" in bad.output
 
@@ -96,7 +97,9 @@ def test_register_names_labels_moved_by_an_ingredient_change(tmp_path):
     out = tmp_path / "out"
     assert runner.invoke(app, ["range", str(src), "--market", "us,eu", "--out", str(out), "-q"]).exit_code == 0
     lib = src / "ingredients" / "lib.yaml"
-    lib.write_text(lib.read_text().replace("sodium: 39300", "sodium: 30000"), encoding="utf-8")  # supplier's new salt spec
+    lib.write_text(
+        lib.read_text().replace("sodium: 39300", "sodium: 30000"), encoding="utf-8"
+    )  # supplier's new salt spec
     res = runner.invoke(app, ["range", str(src), "--market", "us,eu", "--out", str(out), "-q"])
     assert res.exit_code == 0, res.output
     changes = list(csv.DictReader((out / "changes.csv").open()))
@@ -124,7 +127,9 @@ def test_new_allergen_in_a_sub_ingredient_is_reported(tmp_path):
     out = tmp_path / "out"
     runner.invoke(app, ["range", str(src), "--market", "eu", "--out", str(out), "-q"])
     lib = src / "ingredients" / "lib.yaml"
-    lib.write_text(lib.read_text().replace("    allergens: [wheat]", "    allergens: [wheat, sesame]"), encoding="utf-8")
+    lib.write_text(
+        lib.read_text().replace("    allergens: [wheat]", "    allergens: [wheat, sesame]"), encoding="utf-8"
+    )
     runner.invoke(app, ["range", str(src), "--market", "eu", "--out", str(out), "-q"])
     changes = list(csv.DictReader((out / "changes.csv").open()))
     c = next(x for x in changes if x["product_id"] == "good_c")
@@ -135,12 +140,25 @@ def test_csv_and_xlsx_sources_equal_yaml_folder(tmp_path):
     import openpyxl
 
     src = make_range(tmp_path / "src", GOOD)
-    header = ["product_id", "product_name", "category", "serving_g", "net_quantity_g", "ingredient", "amount",
-              "step", "final_water", "oil", "oil_uptake_per_100g"]
-    rows = [["good_a", "Good A", "snacks", "30", "150", "tuber", "900 g", "frying", "2", "oil", "30"],
-            ["good_a", "", "", "", "", "salt", "10 g", "", "", "", ""],
-            ["good_b", "Good B", "snacks", "25", "", "flour", "80 %", "", "", "", ""],
-            ["good_b", "", "", "", "", "sugar", "20 %", "", "", "", ""]]
+    header = [
+        "product_id",
+        "product_name",
+        "category",
+        "serving_g",
+        "net_quantity_g",
+        "ingredient",
+        "amount",
+        "step",
+        "final_water",
+        "oil",
+        "oil_uptake_per_100g",
+    ]
+    rows = [
+        ["good_a", "Good A", "snacks", "30", "150", "tuber", "900 g", "frying", "2", "oil", "30"],
+        ["good_a", "", "", "", "", "salt", "10 g", "", "", "", ""],
+        ["good_b", "Good B", "snacks", "25", "", "flour", "80 %", "", "", "", ""],
+        ["good_b", "", "", "", "", "sugar", "20 %", "", "", "", ""],
+    ]
     sheet_dir = tmp_path / "sheet"
     shutil.copytree(src / "ingredients", sheet_dir / "ingredients")
     with (sheet_dir / "range.csv").open("w", newline="") as fh:
@@ -154,8 +172,14 @@ def test_csv_and_xlsx_sources_equal_yaml_folder(tmp_path):
     for r in rows:
         ws.append(r)
     wb.save(sheet_dir / "range.xlsx")
-    keys = lambda res: {(r["product_id"], r["market"], r["scenario"]): {k: v for k, v in r.items()  # noqa: E731
-                        if k not in ("file", "formula_hash")} for r in res.rows}
+    keys = lambda res: {
+        (r["product_id"], r["market"], r["scenario"]): {
+            k: v
+            for k, v in r.items()  # noqa: E731
+            if k not in ("file", "formula_hash")
+        }
+        for r in res.rows
+    }
     y = keys(run_range(src, src / "ingredients", ["us", "eu"]))
     c = keys(run_range(sheet_dir / "range.csv", sheet_dir / "ingredients", ["us", "eu"]))
     x = keys(run_range(sheet_dir / "range.xlsx", sheet_dir / "ingredients", ["us", "eu"]))

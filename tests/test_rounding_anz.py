@@ -12,8 +12,8 @@ from __future__ import annotations
 
 import pytest
 
-from labelcalc.rounding import apply_rounding
-from labelcalc.rulepack import load_packs
+from labelcalc.labelling.rounding import apply_rounding
+from labelcalc.labelling.rulepack import load_packs
 
 
 @pytest.fixture(scope="module")
@@ -137,15 +137,28 @@ def test_no_row_shows_di_by_default(pack):
 # Schedule 11, S11—2(2) and (3), kJ/g (the tables were not read: from memory — verify);
 # S11—2(4): calories = kJ / 4.18 (confirmed).
 S11_FACTORS = {
-    "protein": 17, "fat": 37, "sugars": 17, "starch": 17, "fibre_soluble": 8, "fibre_insoluble": 8,
-    "ethanol": 29, "erythritol": 1, "glycerol": 18, "isomalt": 11, "lactitol": 11, "maltitol": 13,
-    "mannitol": 9, "organic_acids": 13, "sorbitol": 14, "xylitol": 14,
+    "protein": 17,
+    "fat": 37,
+    "sugars": 17,
+    "starch": 17,
+    "fibre_soluble": 8,
+    "fibre_insoluble": 8,
+    "ethanol": 29,
+    "erythritol": 1,
+    "glycerol": 18,
+    "isomalt": 11,
+    "lactitol": 11,
+    "maltitol": 13,
+    "mannitol": 9,
+    "organic_acids": 13,
+    "sorbitol": 14,
+    "xylitol": 14,
 }
 
 
 @pytest.mark.parametrize("component,kj", sorted(S11_FACTORS.items()))
 def test_schedule_11_factors(component, kj):
-    from labelcalc.energy import load_factor_set
+    from labelcalc.formulation.energy import load_factor_set
 
     fs = load_factor_set("anz_fsc_schedule_11")
     assert fs.factor_for(component).kj == kj

@@ -15,8 +15,8 @@ from decimal import Decimal
 
 import pytest
 
-from labelcalc.rounding import apply_rounding
-from labelcalc.rulepack import load_packs
+from labelcalc.labelling.rounding import apply_rounding
+from labelcalc.labelling.rulepack import load_packs
 
 
 @pytest.fixture(scope="module")
@@ -271,10 +271,10 @@ DAILY_VALUES = {
     "potassium_2016": (4700, "mg"),
     "calcium": (1300, "mg"),
     "iron": (18, "mg"),
-    "vitamin_a": (900, "ug"),   # from memory — verify
-    "vitamin_d": (20, "ug"),    # from memory — verify
-    "vitamin_e": (15, "mg"),    # from memory — verify
-    "vitamin_k": (120, "ug"),   # from memory — verify
+    "vitamin_a": (900, "ug"),  # from memory — verify
+    "vitamin_d": (20, "ug"),  # from memory — verify
+    "vitamin_e": (15, "mg"),  # from memory — verify
+    "vitamin_k": (120, "ug"),  # from memory — verify
 }
 
 
@@ -311,14 +311,22 @@ def test_percent_basis(pack):
 # alcohol 7; dietary fibre 2 (Health Canada fibre policy, 2012); 1 Cal = 4.184 kJ (s. 6.4.1.1).
 # Polyol values are the commonly cited ones (from memory — verify).
 CA_FACTORS = {
-    "protein": 4, "fat": 9, "sugars": 4, "starch": 4, "ethanol": 7, "fibre_soluble": 2,
-    "fibre_insoluble": 2, "nonabsorbed_lipid": 0, "maltitol": 2.1, "erythritol": 0.2,
+    "protein": 4,
+    "fat": 9,
+    "sugars": 4,
+    "starch": 4,
+    "ethanol": 7,
+    "fibre_soluble": 2,
+    "fibre_insoluble": 2,
+    "nonabsorbed_lipid": 0,
+    "maltitol": 2.1,
+    "erythritol": 0.2,
 }
 
 
 @pytest.mark.parametrize("component,kcal", sorted(CA_FACTORS.items()))
 def test_energy_factors(component, kcal):
-    from labelcalc.energy import load_factor_set
+    from labelcalc.formulation.energy import load_factor_set
 
     fs = load_factor_set("ca_fdr_b01_atwater")
     assert fs.factor_for(component).kcal == kcal

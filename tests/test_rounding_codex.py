@@ -15,9 +15,9 @@ from __future__ import annotations
 
 import pytest
 
-from labelcalc.energy import load_factor_set
-from labelcalc.rounding import apply_rounding
-from labelcalc.rulepack import load_packs
+from labelcalc.formulation.energy import load_factor_set
+from labelcalc.labelling.rounding import apply_rounding
+from labelcalc.labelling.rulepack import load_packs
 
 
 @pytest.fixture(scope="module")
@@ -95,16 +95,16 @@ def test_rounding_is_marked_common_practice(pack):
 # Annex to CXG 2-1985: NRVs-R and NRVs-NCD. Secondary source for most (a published table of
 # Codex-based standards); saturated fatty acids 20 g is from memory — verify.
 NRVS = {
-    "protein": (50, "g"),          # NRV-R
-    "calcium": (1000, "mg"),       # NRV-R
-    "iron": (14, "mg"),            # NRV-R, 15 % absorption (22 mg at 10 %)
-    "vitamin_a": (800, "ug"),      # NRV-R, ug RAE/RE
-    "vitamin_d": (5, "ug"),        # NRV-R, 5-15 ug
-    "vitamin_e": (9, "mg"),        # NRV-R
-    "vitamin_k": (60, "ug"),       # NRV-R
-    "saturated_fat": (20, "g"),    # NRV-NCD (from memory — verify)
-    "sodium": (2000, "mg"),        # NRV-NCD
-    "potassium": (3500, "mg"),     # NRV-NCD (adopted 2015)
+    "protein": (50, "g"),  # NRV-R
+    "calcium": (1000, "mg"),  # NRV-R
+    "iron": (14, "mg"),  # NRV-R, 15 % absorption (22 mg at 10 %)
+    "vitamin_a": (800, "ug"),  # NRV-R, ug RAE/RE
+    "vitamin_d": (5, "ug"),  # NRV-R, 5-15 ug
+    "vitamin_e": (9, "mg"),  # NRV-R
+    "vitamin_k": (60, "ug"),  # NRV-R
+    "saturated_fat": (20, "g"),  # NRV-NCD (from memory — verify)
+    "sodium": (2000, "mg"),  # NRV-NCD
+    "potassium": (3500, "mg"),  # NRV-NCD (adopted 2015)
 }
 
 
@@ -122,16 +122,30 @@ def test_mandatory_nutrients(pack):
     # CXG 2-1985 s. 3.2.1: energy; protein, available carbohydrate, fat, saturated fat,
     # sodium, total sugars.
     mandatory = {r.nutrient for r in pack.rows if r.requirement == "mandatory"}
-    assert mandatory == {"energy_kj", "energy_kcal", "protein", "carbohydrate", "sugars", "fat",
-                         "saturated_fat", "sodium"}
+    assert mandatory == {
+        "energy_kj",
+        "energy_kcal",
+        "protein",
+        "carbohydrate",
+        "sugars",
+        "fat",
+        "saturated_fat",
+        "sodium",
+    }
 
 
 # CXG 2-1985 s. 3.3.1 (from memory — verify): carbohydrates 4/17, protein 4/17, fat 9/37,
 # alcohol 7/29, organic acids 3/13 (kcal/kJ per g). No factor for fibre or polyols: the pack
 # gives fibre 0 and polyols the carbohydrate factor, both with a review note.
 FACTORS = {
-    "protein": (4, 17), "sugars": (4, 17), "starch": (4, 17), "fat": (9, 37),
-    "ethanol": (7, 29), "organic_acids": (3, 13), "fibre_soluble": (0, 0), "maltitol": (4, 17),
+    "protein": (4, 17),
+    "sugars": (4, 17),
+    "starch": (4, 17),
+    "fat": (9, 37),
+    "ethanol": (7, 29),
+    "organic_acids": (3, 13),
+    "fibre_soluble": (0, 0),
+    "maltitol": (4, 17),
 }
 
 

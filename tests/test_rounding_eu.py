@@ -18,9 +18,9 @@ from decimal import Decimal
 
 import pytest
 
-from labelcalc.energy import load_factor_set
-from labelcalc.rounding import apply_rounding
-from labelcalc.rulepack import load_packs
+from labelcalc.formulation.energy import load_factor_set
+from labelcalc.labelling.rounding import apply_rounding
+from labelcalc.labelling.rulepack import load_packs
 
 FACTOR_SETS = {"eu": "eu_1169_2011_annex_xiv", "uk": "uk_retained_1169_2011_annex_xiv"}
 
@@ -38,22 +38,33 @@ def rounded(pack, rule, value):
 
 # Energy: nearest 1 kJ and nearest 1 kcal (each unit rounded on its own).
 ENERGY = [
-    (1549.49, "1549"), (1549.5, "1550"), (1550.49, "1550"),
-    (367.5, "368"), (367.49, "367"),
-    (0.49, "0"), (0.5, "1"),
+    (1549.49, "1549"),
+    (1549.5, "1550"),
+    (1550.49, "1550"),
+    (367.5, "368"),
+    (367.49, "367"),
+    (0.49, "0"),
+    (0.5, "1"),
 ]
 
 # Fat, carbohydrate, sugars, protein, fibre, polyols, starch:
 #   >= 10 g -> nearest 1 g; < 10 g and > 0.5 g -> nearest 0.1 g; <= 0.5 g -> "<0.5" (or "0").
 MACRONUTRIENT = [
     (0, "<0.5"),
-    (0.49, "<0.5"), (0.5, "<0.5"), (0.51, "0.5"),   # threshold 0.5 g (at = "<0.5")
-    (0.46, "<0.5"),                                 # worked vector: fat 0.46 g
-    (0.55, "0.6"), (9.44, "9.4"),                   # worked vector: 9.44 g -> 9.4
-    (9.94, "9.9"), (9.95, "10"),                    # 9.95 rounds to 10.0 in the 0.1 g band
-    (9.99, "10"), (10, "10"), (10.01, "10"),        # threshold 10 g
-    (10.49, "10"), (10.5, "11"),
-    (12.6, "13"),                                   # worked vector: 12.6 g -> 13
+    (0.49, "<0.5"),
+    (0.5, "<0.5"),
+    (0.51, "0.5"),  # threshold 0.5 g (at = "<0.5")
+    (0.46, "<0.5"),  # worked vector: fat 0.46 g
+    (0.55, "0.6"),
+    (9.44, "9.4"),  # worked vector: 9.44 g -> 9.4
+    (9.94, "9.9"),
+    (9.95, "10"),  # 9.95 rounds to 10.0 in the 0.1 g band
+    (9.99, "10"),
+    (10, "10"),
+    (10.01, "10"),  # threshold 10 g
+    (10.49, "10"),
+    (10.5, "11"),
+    (12.6, "13"),  # worked vector: 12.6 g -> 13
     (60, "60"),
 ]
 
@@ -61,22 +72,34 @@ MACRONUTRIENT = [
 #   >= 10 g -> 1 g; < 10 g and > 0.1 g -> 0.1 g; <= 0.1 g -> "<0.1" (or "0").
 FATTY_ACIDS = [
     (0, "<0.1"),
-    (0.08, "<0.1"),                                 # worked vector: saturates 0.08 g
-    (0.09, "<0.1"), (0.1, "<0.1"), (0.11, "0.1"),   # threshold 0.1 g
-    (0.14, "0.1"), (0.15, "0.2"),
-    (9.94, "9.9"), (9.99, "10"), (10, "10"), (10.01, "10"),  # threshold 10 g
+    (0.08, "<0.1"),  # worked vector: saturates 0.08 g
+    (0.09, "<0.1"),
+    (0.1, "<0.1"),
+    (0.11, "0.1"),  # threshold 0.1 g
+    (0.14, "0.1"),
+    (0.15, "0.2"),
+    (9.94, "9.9"),
+    (9.99, "10"),
+    (10, "10"),
+    (10.01, "10"),  # threshold 10 g
     (12.6, "13"),
 ]
 
 # Salt: >= 1 g -> 0.1 g; < 1 g and > 0.0125 g -> 0.01 g; <= 0.0125 g -> "<0.01" (or "0").
 SALT = [
     (0, "<0.01"),
-    (0.012, "<0.01"),                                       # worked vector: 0.012 g
-    (0.0124, "<0.01"), (0.0125, "<0.01"), (0.0126, "0.01"), # threshold 0.0125 g
-    (0.456, "0.46"),                                        # worked vector: 0.456 g
-    (0.99, "0.99"), (0.994, "0.99"), (0.995, "1"),
-    (1, "1"), (1.01, "1"), (1.05, "1.1"),                   # threshold 1 g
-    (1.234, "1.2"),                                         # worked vector: 1.234 g
+    (0.012, "<0.01"),  # worked vector: 0.012 g
+    (0.0124, "<0.01"),
+    (0.0125, "<0.01"),
+    (0.0126, "0.01"),  # threshold 0.0125 g
+    (0.456, "0.46"),  # worked vector: 0.456 g
+    (0.99, "0.99"),
+    (0.994, "0.99"),
+    (0.995, "1"),
+    (1, "1"),
+    (1.01, "1"),
+    (1.05, "1.1"),  # threshold 1 g
+    (1.234, "1.2"),  # worked vector: 1.234 g
     (1.25, "1.3"),
 ]
 
@@ -138,14 +161,25 @@ def test_small_amount_forms_are_less_than_not_zero(pack):
 
 def test_rows_use_table4_rules(pack):
     expected = {
-        "energy_kj": "energy", "energy_kcal": "energy",
-        "fat": "macronutrient", "carbohydrate": "macronutrient", "sugars": "macronutrient",
-        "polyols": "macronutrient", "starch": "macronutrient", "fibre": "macronutrient",
+        "energy_kj": "energy",
+        "energy_kcal": "energy",
+        "fat": "macronutrient",
+        "carbohydrate": "macronutrient",
+        "sugars": "macronutrient",
+        "polyols": "macronutrient",
+        "starch": "macronutrient",
+        "fibre": "macronutrient",
         "protein": "macronutrient",
-        "saturates": "fatty_acids", "monounsaturates": "fatty_acids", "polyunsaturates": "fatty_acids",
+        "saturates": "fatty_acids",
+        "monounsaturates": "fatty_acids",
+        "polyunsaturates": "fatty_acids",
         "salt": "salt",
-        "vitamin_a": "vitamin_mineral_3sf", "potassium": "vitamin_mineral_3sf", "calcium": "vitamin_mineral_3sf",
-        "vitamin_d": "vitamin_mineral_2sf", "vitamin_e": "vitamin_mineral_2sf", "vitamin_k": "vitamin_mineral_2sf",
+        "vitamin_a": "vitamin_mineral_3sf",
+        "potassium": "vitamin_mineral_3sf",
+        "calcium": "vitamin_mineral_3sf",
+        "vitamin_d": "vitamin_mineral_2sf",
+        "vitamin_e": "vitamin_mineral_2sf",
+        "vitamin_k": "vitamin_mineral_2sf",
         "iron": "vitamin_mineral_2sf",
     }
     assert {r.nutrient: r.rounding for r in pack.rows} == expected
@@ -155,14 +189,23 @@ def test_rows_use_table4_rules(pack):
 
 # Annex XIII Part B: reference intakes of energy and selected nutrients (adults).
 ANNEX_XIII_PART_B = {
-    "energy_kj": (8400, "kJ"), "energy_kcal": (2000, "kcal"),
-    "fat": (70, "g"), "saturates": (20, "g"), "carbohydrate": (260, "g"),
-    "sugars": (90, "g"), "protein": (50, "g"), "salt": (6, "g"),
+    "energy_kj": (8400, "kJ"),
+    "energy_kcal": (2000, "kcal"),
+    "fat": (70, "g"),
+    "saturates": (20, "g"),
+    "carbohydrate": (260, "g"),
+    "sugars": (90, "g"),
+    "protein": (50, "g"),
+    "salt": (6, "g"),
 }
 # Annex XIII Part A point 1: nutrient reference values (NRVs), adults.
 ANNEX_XIII_PART_A = {
-    "nrv_vitamin_a": (800, "ug"), "nrv_vitamin_d": (5, "ug"), "nrv_vitamin_e": (12, "mg"),
-    "nrv_vitamin_k": (75, "ug"), "nrv_potassium": (2000, "mg"), "nrv_calcium": (800, "mg"),
+    "nrv_vitamin_a": (800, "ug"),
+    "nrv_vitamin_d": (5, "ug"),
+    "nrv_vitamin_e": (12, "mg"),
+    "nrv_vitamin_k": (75, "ug"),
+    "nrv_potassium": (2000, "mg"),
+    "nrv_calcium": (800, "mg"),
     "nrv_iron": (14, "mg"),
 }
 
@@ -198,11 +241,29 @@ def test_ri_footnote_art_32_5(pack):
 
 # --- Art. 30, Annex XV, Annex I -----------------------------------------------------------
 
+
 def test_rows_in_annex_xv_order(pack):
     assert [r.nutrient for r in pack.rows] == [
-        "energy_kj", "energy_kcal", "fat", "saturates", "monounsaturates", "polyunsaturates",
-        "carbohydrate", "sugars", "polyols", "starch", "fibre", "protein", "salt",
-        "vitamin_a", "vitamin_d", "vitamin_e", "vitamin_k", "potassium", "calcium", "iron",
+        "energy_kj",
+        "energy_kcal",
+        "fat",
+        "saturates",
+        "monounsaturates",
+        "polyunsaturates",
+        "carbohydrate",
+        "sugars",
+        "polyols",
+        "starch",
+        "fibre",
+        "protein",
+        "salt",
+        "vitamin_a",
+        "vitamin_d",
+        "vitamin_e",
+        "vitamin_k",
+        "potassium",
+        "calcium",
+        "iron",
     ]
     mandatory = [r.nutrient for r in pack.rows if r.requirement == "mandatory"]
     assert mandatory == ["energy_kj", "energy_kcal", "fat", "saturates", "carbohydrate", "sugars", "protein", "salt"]
@@ -210,10 +271,10 @@ def test_rows_in_annex_xv_order(pack):
 
 def test_annex_i_definitions(pack):
     n = pack.nutrients
-    assert n["fat"].sum == {"total_lipid": 1}                     # total lipids
+    assert n["fat"].sum == {"total_lipid": 1}  # total lipids
     assert n["carbohydrate"].sum == {"sugars": 1, "starch": 1, "polyols": 1}  # polyols in, fibre apart
-    assert n["sugars"].sum == {"sugars": 1}                       # polyols excluded
-    assert n["salt"].sum == {"sodium": 0.0025}                    # sodium (mg) x 2.5 / 1000
+    assert n["sugars"].sum == {"sugars": 1}  # polyols excluded
+    assert n["salt"].sum == {"sodium": 0.0025}  # sodium (mg) x 2.5 / 1000
     assert n["fibre"].sum == {"fibre": 1}
     assert "review" in n["fat"].citation
 
@@ -253,7 +314,9 @@ def test_worked_example_declared(pack):
     assert apply_rounding(8, r["macronutrient"]).text == "8"
     assert apply_rounding(3, r["macronutrient"]).text == "3"
     ref = pack.reference_values
-    pct = {k: v / ref[k].amount * 100 for k, v in
-           {"energy_kj": 1550, "energy_kcal": 368, "fat": 10, "carbohydrate": 60, "protein": 8}.items()}
+    pct = {
+        k: v / ref[k].amount * 100
+        for k, v in {"energy_kj": 1550, "energy_kcal": 368, "fat": 10, "carbohydrate": 60, "protein": 8}.items()
+    }
     got = {k: apply_rounding(v, r["percent_ri"]).text for k, v in pct.items()}
     assert got == {"energy_kj": "18", "energy_kcal": "18", "fat": "14", "carbohydrate": "23", "protein": "16"}

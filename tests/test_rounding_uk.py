@@ -19,8 +19,8 @@ NRVs; Part B: reference intakes).
 
 import pytest
 
-from labelcalc.energy import load_factor_set
-from labelcalc.rulepack import load_packs
+from labelcalc.formulation.energy import load_factor_set
+from labelcalc.labelling.rulepack import load_packs
 
 MARKET = "uk"
 FACTOR_SET = "uk_retained_1169_2011_annex_xiv"
@@ -32,6 +32,7 @@ def pack():
 
 
 # --- UK specifics -------------------------------------------------------------------------
+
 
 def test_uk_instruments(pack):
     urls = {i.id: i.url for i in pack.pack.instruments}
@@ -46,10 +47,16 @@ def test_same_as_eu_today():
     uk, eu = packs["uk"], packs["eu"]
     strip = lambda rule: [b.model_dump() for b in rule.bands]  # noqa: E731
     assert {k: strip(v) for k, v in uk.rounding.items()} == {k: strip(v) for k, v in eu.rounding.items()}
-    assert {k: (v.amount, v.unit) for k, v in uk.reference_values.items()} == \
-        {k: (v.amount, v.unit) for k, v in eu.reference_values.items()}
-    assert [(r.nutrient, r.label, r.requirement) for r in uk.rows] == [(r.nutrient, r.label, r.requirement) for r in eu.rows]
-    assert {k: (n.unit, n.sum, n.energy) for k, n in uk.nutrients.items()} == \
-        {k: (n.unit, n.sum, n.energy) for k, n in eu.nutrients.items()}
+    assert {k: (v.amount, v.unit) for k, v in uk.reference_values.items()} == {
+        k: (v.amount, v.unit) for k, v in eu.reference_values.items()
+    }
+    assert [(r.nutrient, r.label, r.requirement) for r in uk.rows] == [
+        (r.nutrient, r.label, r.requirement) for r in eu.rows
+    ]
+    assert {k: (n.unit, n.sum, n.energy) for k, n in uk.nutrients.items()} == {
+        k: (n.unit, n.sum, n.energy) for k, n in eu.nutrients.items()
+    }
     uk_fs, eu_fs = load_factor_set(FACTOR_SET), load_factor_set("eu_1169_2011_annex_xiv")
-    assert [(f.components, f.kj, f.kcal) for f in uk_fs.factors] == [(f.components, f.kj, f.kcal) for f in eu_fs.factors]
+    assert [(f.components, f.kj, f.kcal) for f in uk_fs.factors] == [
+        (f.components, f.kj, f.kcal) for f in eu_fs.factors
+    ]

@@ -13,8 +13,8 @@ from decimal import Decimal
 
 import pytest
 
-from labelcalc.rounding import apply_rounding
-from labelcalc.rulepack import load_packs
+from labelcalc.labelling.rounding import apply_rounding
+from labelcalc.labelling.rulepack import load_packs
 
 
 @pytest.fixture(scope="module")
@@ -97,33 +97,33 @@ CASES = [
     # 101.9(c)(8)(iii) vitamins and minerals: zero below 2 % of the RDI, then FDA's
     # recommended step (0.1 unit for RDI < 25; 1 unit for 25-250; 10 units for >= 250,
     # the last from memory — verify).
-    ("vitamin_d", 0.39, "0"),    # 2 % of 20 mcg = 0.4 mcg
+    ("vitamin_d", 0.39, "0"),  # 2 % of 20 mcg = 0.4 mcg
     ("vitamin_d", 0.4, "0.4"),
     ("vitamin_d", 0.41, "0.4"),
     ("vitamin_d", 2.04, "2"),
     ("vitamin_d", 2.05, "2.1"),
-    ("iron", 0.35, "0"),         # 2 % of 18 mg = 0.36 mg
+    ("iron", 0.35, "0"),  # 2 % of 18 mg = 0.36 mg
     ("iron", 0.36, "0.4"),
     ("iron", 0.37, "0.4"),
     ("iron", 8.04, "8"),
     ("iron", 8.05, "8.1"),
-    ("vitamin_e", 0.29, "0"),    # 2 % of 15 mg = 0.3 mg
+    ("vitamin_e", 0.29, "0"),  # 2 % of 15 mg = 0.3 mg
     ("vitamin_e", 0.3, "0.3"),
     ("vitamin_e", 0.31, "0.3"),
-    ("vitamin_k", 2.39, "0"),    # 2 % of 120 mcg = 2.4 mcg
+    ("vitamin_k", 2.39, "0"),  # 2 % of 120 mcg = 2.4 mcg
     ("vitamin_k", 2.4, "2"),
     ("vitamin_k", 2.41, "2"),
     ("vitamin_k", 2.5, "3"),
-    ("calcium", 25.99, "0"),     # 2 % of 1,300 mg = 26 mg; step 10 mg: from memory — verify
+    ("calcium", 25.99, "0"),  # 2 % of 1,300 mg = 26 mg; step 10 mg: from memory — verify
     ("calcium", 26, "30"),
     ("calcium", 26.01, "30"),
     ("calcium", 254.99, "250"),
     ("calcium", 255, "260"),
-    ("potassium", 93.99, "0"),   # 2 % of 4,700 mg = 94 mg; step 10 mg: from memory — verify
+    ("potassium", 93.99, "0"),  # 2 % of 4,700 mg = 94 mg; step 10 mg: from memory — verify
     ("potassium", 94, "90"),
     ("potassium", 94.01, "90"),
     ("potassium", 235, "240"),
-    ("vitamin_a", 17.99, "0"),   # 2 % of 900 mcg = 18 mcg; step 10 mcg: from memory — verify
+    ("vitamin_a", 17.99, "0"),  # 2 % of 900 mcg = 18 mcg; step 10 mcg: from memory — verify
     ("vitamin_a", 18, "20"),
     ("vitamin_a", 18.01, "20"),
     # 101.9(d)(7)(ii) %DV of nutrients other than vitamins and minerals: nearest 1 %
@@ -139,13 +139,13 @@ CASES = [
     ("percent_vitamin", 2, "2"),
     ("percent_vitamin", 2.01, "2"),
     ("percent_vitamin", 4.99, "4"),
-    ("percent_vitamin", 5, "6"),          # FDA sample label: potassium 235/4700 = 5.0 % -> 6 %
+    ("percent_vitamin", 5, "6"),  # FDA sample label: potassium 235/4700 = 5.0 % -> 6 %
     ("percent_vitamin", 9.99, "10"),
     ("percent_vitamin", 10, "10"),
     ("percent_vitamin", 10.01, "10"),
     ("percent_vitamin", 12.49, "10"),
     ("percent_vitamin", 12.5, "15"),
-    ("percent_vitamin", 44.44, "45"),     # FDA sample label: iron 8/18
+    ("percent_vitamin", 44.44, "45"),  # FDA sample label: iron 8/18
     ("percent_vitamin", 49.99, "50"),
     ("percent_vitamin", 50, "50"),
     ("percent_vitamin", 50.01, "50"),
@@ -174,8 +174,18 @@ def test_rounding_table(pack, rule, value, expected):
 
 def test_zero_bands_stand_for_zero(pack):
     # Texts that mean zero carry the number 0, so a percentage from the declared value is 0 %.
-    for rule in ("calories", "fat", "cholesterol", "sodium", "carbohydrate", "protein", "vitamin_d", "iron",
-                 "calcium", "potassium"):
+    for rule in (
+        "calories",
+        "fat",
+        "cholesterol",
+        "sodium",
+        "carbohydrate",
+        "protein",
+        "vitamin_d",
+        "iron",
+        "calcium",
+        "potassium",
+    ):
         r = apply_rounding(0.0, pack.rounding[rule])
         assert r.text == "0" and r.number == Decimal(0), rule
 
@@ -190,22 +200,22 @@ def test_less_than_texts_have_no_number(pack):
 # 21 CFR 101.9(c)(9) DRV table and 101.9(c)(8)(iv) RDI table, adults and children
 # 4 years and older, as revised 27 May 2016 (81 FR 33742).
 REFERENCE_VALUES = {
-    "energy": (2000, "kcal"),          # (c)(9): DRVs rest on a 2,000-calorie reference intake
-    "total_fat": (78, "g"),            # (c)(9)
-    "saturated_fat": (20, "g"),        # (c)(9)
-    "cholesterol": (300, "mg"),        # (c)(9)
-    "sodium": (2300, "mg"),            # (c)(9)
+    "energy": (2000, "kcal"),  # (c)(9): DRVs rest on a 2,000-calorie reference intake
+    "total_fat": (78, "g"),  # (c)(9)
+    "saturated_fat": (20, "g"),  # (c)(9)
+    "cholesterol": (300, "mg"),  # (c)(9)
+    "sodium": (2300, "mg"),  # (c)(9)
     "total_carbohydrate": (275, "g"),  # (c)(9)
-    "dietary_fiber": (28, "g"),        # (c)(9)
-    "added_sugars": (50, "g"),         # (c)(9)
-    "protein": (50, "g"),              # (c)(9)
-    "vitamin_d": (20, "ug"),           # (c)(8)(iv)
-    "calcium": (1300, "mg"),           # (c)(8)(iv)
-    "iron": (18, "mg"),                # (c)(8)(iv)
-    "potassium": (4700, "mg"),         # (c)(8)(iv)
-    "vitamin_a": (900, "ug"),          # (c)(8)(iv), mcg RAE
-    "vitamin_e": (15, "mg"),           # (c)(8)(iv), mg alpha-tocopherol
-    "vitamin_k": (120, "ug"),          # (c)(8)(iv)
+    "dietary_fiber": (28, "g"),  # (c)(9)
+    "added_sugars": (50, "g"),  # (c)(9)
+    "protein": (50, "g"),  # (c)(9)
+    "vitamin_d": (20, "ug"),  # (c)(8)(iv)
+    "calcium": (1300, "mg"),  # (c)(8)(iv)
+    "iron": (18, "mg"),  # (c)(8)(iv)
+    "potassium": (4700, "mg"),  # (c)(8)(iv)
+    "vitamin_a": (900, "ug"),  # (c)(8)(iv), mcg RAE
+    "vitamin_e": (15, "mg"),  # (c)(8)(iv), mg alpha-tocopherol
+    "vitamin_k": (120, "ug"),  # (c)(8)(iv)
 }
 
 
@@ -217,14 +227,37 @@ def test_reference_values_match_the_2016_tables(pack):
 # 21 CFR 101.12(b) Table 2 (general food supply), as revised 27 May 2016 (81 FR 34000);
 # beverages in mL, entered as grams. Chewing gum 3 g is from memory — verify.
 RACC = {
-    "snacks": 30, "nuts_seeds": 30, "cookies": 30, "crackers_snack": 30, "crackers_non_snack": 15,
-    "bars_grain": 40, "brownies": 40, "bread": 50, "bread_biscuits_croissants": 55, "muffins_bagels": 110,
-    "cakes_heavy": 125, "cakes_medium": 80, "cakes_light": 55, "coffee_cakes_doughnuts": 55,
-    "pies_pastries": 125, "cereal_rte_light": 15, "cereal_rte_medium": 40, "cereal_rte_heavy": 60,
-    "cereal_hot_plain_dry": 40, "cereal_hot_flavored_dry": 55, "confectionery_soft": 30,
-    "confectionery_hard": 15, "hard_candy_breath_mints": 2, "hard_candy_roll_mini": 5, "chewing_gum": 3,
-    "baking_candies": 15, "marshmallows": 30, "beverages": 360, "beverages_coffee_tea_flavored": 360,
-    "juices": 240, "dried_fruit": 40,
+    "snacks": 30,
+    "nuts_seeds": 30,
+    "cookies": 30,
+    "crackers_snack": 30,
+    "crackers_non_snack": 15,
+    "bars_grain": 40,
+    "brownies": 40,
+    "bread": 50,
+    "bread_biscuits_croissants": 55,
+    "muffins_bagels": 110,
+    "cakes_heavy": 125,
+    "cakes_medium": 80,
+    "cakes_light": 55,
+    "coffee_cakes_doughnuts": 55,
+    "pies_pastries": 125,
+    "cereal_rte_light": 15,
+    "cereal_rte_medium": 40,
+    "cereal_rte_heavy": 60,
+    "cereal_hot_plain_dry": 40,
+    "cereal_hot_flavored_dry": 55,
+    "confectionery_soft": 30,
+    "confectionery_hard": 15,
+    "hard_candy_breath_mints": 2,
+    "hard_candy_roll_mini": 5,
+    "chewing_gum": 3,
+    "baking_candies": 15,
+    "marshmallows": 30,
+    "beverages": 360,
+    "beverages_coffee_tea_flavored": 360,
+    "juices": 240,
+    "dried_fruit": 40,
 }
 
 
@@ -237,16 +270,30 @@ def test_reference_amounts_match_table_2(pack):
 
 def test_serving_rules(pack):
     s = pack.servings
-    assert s.single_serving_below_percent == 200          # 101.9(b)(6)
+    assert s.single_serving_below_percent == 200  # 101.9(b)(6)
     assert (s.dual_column.from_percent, s.dual_column.to_percent) == (200, 300)  # 101.9(b)(12)(i)
-    assert s.about_prefix == "about"                      # 101.9(b)(8)(i)
+    assert s.about_prefix == "about"  # 101.9(b)(8)(i)
 
 
 def test_row_order_follows_101_9_c(pack):
     mandatory = [r.nutrient for r in pack.rows if r.requirement == "mandatory"]
-    assert mandatory == ["energy_kcal", "total_fat", "saturated_fat", "trans_fat", "cholesterol", "sodium",
-                         "total_carbohydrate", "dietary_fiber", "total_sugars", "added_sugars", "protein",
-                         "vitamin_d", "calcium", "iron", "potassium"]
+    assert mandatory == [
+        "energy_kcal",
+        "total_fat",
+        "saturated_fat",
+        "trans_fat",
+        "cholesterol",
+        "sodium",
+        "total_carbohydrate",
+        "dietary_fiber",
+        "total_sugars",
+        "added_sugars",
+        "protein",
+        "vitamin_d",
+        "calcium",
+        "iron",
+        "potassium",
+    ]
 
 
 # FDA's 2016 sample label, 101.9(d)(12): per serving (2/3 cup, 55 g) as printed, and the

@@ -8,12 +8,12 @@ import pytest
 from typer.testing import CliRunner
 
 from labelcalc.cli import app
-from labelcalc.composition import compose
-from labelcalc.costing import cost_of
-from labelcalc.declare import declare
-from labelcalc.formula import load_formula
-from labelcalc.rulepack import get_packs
-from labelcalc.whatif import figures, find_target, substitute, sweep
+from labelcalc.formulation.composition import compose
+from labelcalc.intake.formula import load_formula
+from labelcalc.labelling.declare import declare
+from labelcalc.labelling.rulepack import get_packs
+from labelcalc.whatif.costing import cost_of
+from labelcalc.whatif.explore import figures, find_target, substitute, sweep
 
 runner = CliRunner()
 
@@ -73,17 +73,22 @@ def test_target_unreachable_says_what_blocks(lib, crisp):
 
 
 def test_cost_per_kg_accounts_for_water_lost(write, lib_dir, tmp_path):
-    from labelcalc.library import load_library
+    from labelcalc.intake.library import load_library
 
     (lib_dir / "priced.yaml").write_text(
         "ingredients:\n  veg:\n    label_name: Veg\n    source: test\n    unlisted: zero\n"
-        "    per_100g: {water: 80, starch: 20}\n    price: {per_kg: 1.0, currency: EUR}\n", encoding="utf-8")
+        "    per_100g: {water: 80, starch: 20}\n    price: {per_kg: 1.0, currency: EUR}\n",
+        encoding="utf-8",
+    )
     lib = load_library(lib_dir)
-    p = write("dried.yaml", """
+    p = write(
+        "dried.yaml",
+        """
         product: {id: dried, name: Dried, serving: {size: 50 g}}
         batch: [{ingredient: veg, amount: 1000 g}]
         processing: [{step: drying, finished_weight: 500 g}]
-    """)
+    """,
+    )
     (c,) = compose(load_formula(p, lib), lib)
     cost = cost_of(c)
     assert cost.per_kg == pytest.approx(2.0)  # 2 kg of veg at 1 EUR/kg per kg of product
@@ -100,8 +105,25 @@ def test_missing_price_is_unknown_not_zero(lib, crisp):
 def test_sweep_cli_chart_matches_table(tmp_path, lib_dir, write):
     p = write("crisp.yaml", CRISP.format(oil="oil"))
     out = tmp_path / "sw"
-    res = runner.invoke(app, ["sweep", str(p), "--replace", "oil", "--with", "spe", "--step", "25", "--market", "us",
-                              "--out", str(out), "--library", str(lib_dir)])
+    res = runner.invoke(
+        app,
+        [
+            "sweep",
+            str(p),
+            "--replace",
+            "oil",
+            "--with",
+            "spe",
+            "--step",
+            "25",
+            "--market",
+            "us",
+            "--out",
+            str(out),
+            "--library",
+            str(lib_dir),
+        ],
+    )
     assert res.exit_code == 0, res.output
     stem = "crisp.oil-to-spe"
     doc = json.loads((out / f"{stem}.json").read_text())
@@ -125,14 +147,20 @@ def test_compare_cli(tmp_path, lib_dir, write):
 
 
 def test_replace_one_frying_blend_by_another(write, lib):
-    write("blend_a.yaml", """
+    write(
+        "blend_a.yaml",
+        """
         subformula: {id: blend_a, name: Blend A}
         batch: [{ingredient: oil, amount: 100 %}]
-    """)
-    write("blend_b.yaml", """
+    """,
+    )
+    write(
+        "blend_b.yaml",
+        """
         subformula: {id: blend_b, name: Blend B}
         batch: [{ingredient: spe, amount: 75 %}, {ingredient: oil, amount: 25 %}]
-    """)
+    """,
+    )
     f = load_formula(write("fried.yaml", CRISP.format(oil="blend_a")), lib)
     (c0,) = compose(substitute(f, "blend_a", "blend_b", 0, lib), lib)
     (c1,) = compose(substitute(f, "blend_a", "blend_b", 100, lib), lib)

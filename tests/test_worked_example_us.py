@@ -10,15 +10,29 @@ from __future__ import annotations
 
 import pytest
 
-from labelcalc.composition import compose
-from labelcalc.declare import declare
-from labelcalc.formula import load_formula
-from labelcalc.library import load_library
-from labelcalc.rulepack import load_packs
+from labelcalc.formulation.composition import compose
+from labelcalc.intake.formula import load_formula
+from labelcalc.intake.library import load_library
+from labelcalc.labelling.declare import declare
+from labelcalc.labelling.rulepack import load_packs
 
-PER_SERVING = {"protein": 3, "fat": 8, "saturated_fa": 1, "trans_fa": 0, "cholesterol": 0, "sugars": 12,
-               "added_sugars": 10, "starch": 21, "fibre_insoluble": 4, "fibre_soluble": 0, "sodium": 160,
-               "vitamin_d": 2, "calcium": 260, "iron": 8, "potassium": 235}
+PER_SERVING = {
+    "protein": 3,
+    "fat": 8,
+    "saturated_fa": 1,
+    "trans_fa": 0,
+    "cholesterol": 0,
+    "sugars": 12,
+    "added_sugars": 10,
+    "starch": 21,
+    "fibre_insoluble": 4,
+    "fibre_soluble": 0,
+    "sodium": 160,
+    "vitamin_d": 2,
+    "calcium": 260,
+    "iron": 8,
+    "potassium": 235,
+}
 
 
 @pytest.fixture
@@ -29,13 +43,19 @@ def sample(tmp_path):
     per100["water"] = 100 - sum(per100[k] for k in ("protein", "fat", "sugars", "starch", "fibre_insoluble")) - 1
     per100["ash"] = 1
     body = ", ".join(f"{k}: {v!r}" for k, v in per100.items())
-    (lib / "l.yaml").write_text(f"ingredients:\n  sample_food:\n    label_name: Sample\n    source: FDA 2016 sample label\n"
-                                f"    unlisted: zero\n    per_100g: {{{body}}}\n", encoding="utf-8")
+    (lib / "l.yaml").write_text(
+        f"ingredients:\n  sample_food:\n    label_name: Sample\n    source: FDA 2016 sample label\n"
+        f"    unlisted: zero\n    per_100g: {{{body}}}\n",
+        encoding="utf-8",
+    )
     p = tmp_path / "sample.yaml"
-    p.write_text("product:\n  id: fda_sample\n  name: FDA sample label food\n  category: snacks\n"
-                 "  serving: {size: 55 g, household: 2/3 cup}\n  net_quantity: 440 g\n"
-                 "  energy_methods: {us: us_101_9_method_b}\n"
-                 "batch:\n  - {ingredient: sample_food, amount: 100 g}\n", encoding="utf-8")
+    p.write_text(
+        "product:\n  id: fda_sample\n  name: FDA sample label food\n  category: snacks\n"
+        "  serving: {size: 55 g, household: 2/3 cup}\n  net_quantity: 440 g\n"
+        "  energy_methods: {us: us_101_9_method_b}\n"
+        "batch:\n  - {ingredient: sample_food, amount: 100 g}\n",
+        encoding="utf-8",
+    )
     library = load_library(lib)
     (c,) = compose(load_formula(p, library), library)
     return declare(c, load_packs()["us"])

@@ -10,14 +10,24 @@ from __future__ import annotations
 
 import pytest
 
-from labelcalc.composition import compose
-from labelcalc.declare import declare
-from labelcalc.formula import load_formula
-from labelcalc.library import load_library
-from labelcalc.rulepack import load_packs
+from labelcalc.formulation.composition import compose
+from labelcalc.intake.formula import load_formula
+from labelcalc.intake.library import load_library
+from labelcalc.labelling.declare import declare
+from labelcalc.labelling.rulepack import load_packs
 
-FOOD = {"water": 14, "fat": 10, "saturated_fa": 2, "sugars": 20, "starch": 40, "fibre_soluble": 1, "fibre_insoluble": 2,
-        "protein": 8, "ash": 5, "sodium": 400}
+FOOD = {
+    "water": 14,
+    "fat": 10,
+    "saturated_fa": 2,
+    "sugars": 20,
+    "starch": 40,
+    "fibre_soluble": 1,
+    "fibre_insoluble": 2,
+    "protein": 8,
+    "ash": 5,
+    "sodium": 400,
+}
 
 
 @pytest.fixture(scope="module")
@@ -27,10 +37,14 @@ def comp(tmp_path_factory):
     body = ", ".join(f"{k}: {v}" for k, v in FOOD.items())
     (d / "ingredients" / "l.yaml").write_text(
         f"ingredients:\n  food:\n    label_name: Food\n    source: worked example\n    unlisted: zero\n"
-        f"    per_100g: {{{body}}}\n    allergens: []\n", encoding="utf-8")
-    (d / "p.yaml").write_text("product:\n  id: worked\n  name: Worked example\n  category: cookies\n"
-                              "  serving: {size: 30 g}\n  net_quantity: 300 g\nbatch:\n  - {ingredient: food, amount: 100 g}\n",
-                              encoding="utf-8")
+        f"    per_100g: {{{body}}}\n    allergens: []\n",
+        encoding="utf-8",
+    )
+    (d / "p.yaml").write_text(
+        "product:\n  id: worked\n  name: Worked example\n  category: cookies\n"
+        "  serving: {size: 30 g}\n  net_quantity: 300 g\nbatch:\n  - {ingredient: food, amount: 100 g}\n",
+        encoding="utf-8",
+    )
     lib = load_library(d / "ingredients")
     (c,) = compose(load_formula(d / "p.yaml", lib), lib)
     return c
@@ -48,8 +62,14 @@ def test_eu_per_100g(comp):
     # salt >= 1 g to 0.1 g.
     t, d = texts(comp, "eu", "per_100g")
     assert t["energy_kj"] == "1550 kJ" and t["energy_kcal"] == "368 kcal"
-    assert (t["fat"], t["saturates"], t["carbohydrate"], t["sugars"], t["protein"], t["salt"]) == \
-        ("10 g", "2 g", "60 g", "20 g", "8 g", "1 g")
+    assert (t["fat"], t["saturates"], t["carbohydrate"], t["sugars"], t["protein"], t["salt"]) == (
+        "10 g",
+        "2 g",
+        "60 g",
+        "20 g",
+        "8 g",
+        "1 g",
+    )
     assert t["fibre"] == "3 g"
     # %RI of energy (Annex XIII Part B, 8400 kJ): 1550 / 8400 = 18.45 % -> 18 %
     assert d.row("energy_kj").percent["per_100g"] == "18%"
@@ -58,7 +78,13 @@ def test_eu_per_100g(comp):
 def test_eu_per_portion(comp):
     # per 30 g: 465 kJ, 110.4 kcal -> 110 kcal; fat 3.0 g; carbohydrate 18 g; salt 0.30 g (< 1 g: 0.01 g steps)
     t, _ = texts(comp, "eu", "per_serving")
-    assert (t["energy_kj"], t["energy_kcal"], t["fat"], t["carbohydrate"], t["salt"]) == ("465 kJ", "110 kcal", "3 g", "18 g", "0.3 g")
+    assert (t["energy_kj"], t["energy_kcal"], t["fat"], t["carbohydrate"], t["salt"]) == (
+        "465 kJ",
+        "110 kcal",
+        "3 g",
+        "18 g",
+        "0.3 g",
+    )
 
 
 def test_anz(comp):

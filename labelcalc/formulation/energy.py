@@ -1,0 +1,321 @@
+"""Energy from composition with factor sets kept as data in ``rules/energy/``.
+
+Two figures are never confused:
+
+* **available energy** — what the body gets: non-absorbed lipid at 0,
+  partially absorbed lipids at their own factor (factor set ``available``);
+* **declared energy** — what a market's law says to print, computed with
+  that market's own factor set.
+
+kJ come from kJ factors and kcal from kcal factors.  Only where a factor set
+states a conversion (e.g. kcal = kJ / 4.18) is one unit derived from the
+other, and the set must then give factors in the other unit only.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import lru_cache
+from pathlib import Path
+from typing import Literal
+
+import numpy as np
+from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
+
+from labelcalc.errors import Problem, RuleError, UnknownNameError
+from labelcalc.formulation import components as C
+from labelcalc.formulation.composition import ATWATER_REPLACED, COL, COLUMNS, Composition
+from labelcalc.intake.yamlsafe import load_yaml, pydantic_problems
+
+Confidence = Literal["confirmed", "secondary", "from memory — verify", "derived", "common practice"]
+
+#: Energy-bearing mass components; every factor set must cover each exactly once.
+ENERGY_GROUPS: dict[str, tuple[str, ...]] = {
+    "protein": ("protein",),
+    "fat": ("fat",),
+    "nonabsorbed_lipid": ("nonabsorbed_lipid",),
+    "partial_lipid": ("partial_lipid", "partial_lipid_own", "partial_lipid_salatrim", "partial_lipid_other"),
+    "sugars": ("sugars",),
+    "starch": ("starch",),
+    **{p: (p,) for p in C.POLYOLS},
+    "fibre_soluble": ("fibre_soluble",),
+    "fibre_insoluble": ("fibre_insoluble",),
+    "organic_acids": ("organic_acids",),
+    "ethanol": ("ethanol",),
+}
+_VIRTUAL = {"partial_lipid_own", "specific_atwater"}
+
+
+class Factor(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+    components: list[str] = Field(min_length=1)
+    kj: float | None = Field(None, ge=0, description="[kJ/g]")
+    kcal: float | None = Field(None, ge=0, description="[kcal/g]")
+    citation: str = Field(min_length=3)
+    confidence: Confidence
+    review: str | None = Field(None, description="why a regulatory professional should look at this factor")
+
+    @model_validator(mode="after")
+    def _check(self):
+        for c in self.components:
+            if c not in COL and c not in _VIRTUAL:
+                raise ValueError(f"unknown component '{c}'")
+        if "partial_lipid_own" in self.components:
+            if self.kj is not None or self.kcal is not None:
+                raise ValueError("partial_lipid_own uses each ingredient's own lipid_energy; give no kj/kcal")
+        elif self.kj is None and self.kcal is None:
+            raise ValueError("a factor needs kj, kcal or both")
+        return self
+
+
+class FactorSetHeader(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+    id: str
+    title: str
+    instrument: str
+    section: str
+    date: str = Field(description="date of the instrument's version the factors come from")
+    confidence: Confidence
+    kcal_from_kj: float | None = Field(None, gt=0, description="kcal = kJ / this, where the law says so")
+    kj_from_kcal: float | None = Field(None, gt=0, description="kJ = kcal x this, where the law says so")
+    ingredient_specific: bool = Field(False, description="use each ingredient's own Atwater factors (US method A)")
+    notes: str | None = None
+
+
+class FactorSet(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+    factor_set: FactorSetHeader
+    factors: list[Factor]
+
+    @model_validator(mode="after")
+    def _coverage(self):
+        seen: dict[str, int] = {}
+        for f in self.factors:
+            for c in f.components:
+                for g, members in ENERGY_GROUPS.items():
+                    if c in members:
+                        seen[g] = seen.get(g, 0) + 1
+                if c not in _VIRTUAL and not any(c in m for m in ENERGY_GROUPS.values()):
+                    raise ValueError(f"'{c}' carries no energy in labelcalc's vocabulary; do not give it a factor")
+        used = {c for f in self.factors for c in f.components}
+        pl = [c for c in ENERGY_GROUPS["partial_lipid"] if c in used]
+        if sorted(pl) == ["partial_lipid_other", "partial_lipid_salatrim"]:
+            seen["partial_lipid"] = 1
+        elif len(pl) > 1:
+            raise ValueError(
+                "cover partially absorbed lipid once: partial_lipid, partial_lipid_own, "
+                "or partial_lipid_salatrim with partial_lipid_other"
+            )
+        elif len(pl) == 1 and pl[0] in ("partial_lipid_salatrim", "partial_lipid_other"):
+            raise ValueError("partial_lipid_salatrim and partial_lipid_other go together")
+        missing = [g for g in ENERGY_GROUPS if g not in seen]
+        twice = [g for g, n in seen.items() if n > 1]
+        if missing:
+            raise ValueError(f"no factor for: {', '.join(missing)} (give 0 explicitly where the law gives none)")
+        if twice:
+            raise ValueError(f"more than one factor for: {', '.join(twice)}")
+        h = self.factor_set
+        for f in self.factors:
+            if "partial_lipid_own" in f.components:
+                continue
+            if h.kcal_from_kj and f.kcal is not None:
+                raise ValueError("this set derives kcal from kJ: give kj factors only")
+            if h.kj_from_kcal and f.kj is not None:
+                raise ValueError("this set derives kJ from kcal: give kcal factors only")
+            if not h.kcal_from_kj and f.kcal is None:
+                raise ValueError(f"factor for {f.components} needs kcal (or a kcal_from_kj conversion)")
+        return self
+
+    @property
+    def id(self) -> str:
+        return self.factor_set.id
+
+    def vectors(self) -> tuple[np.ndarray, np.ndarray, bool]:
+        """(kJ/g, kcal/g) over COLUMNS and whether own partial-lipid factors are used."""
+        kj = np.zeros(len(COLUMNS))
+        kcal = np.zeros(len(COLUMNS))
+        own = False
+        for f in self.factors:
+            for c in f.components:
+                if c == "partial_lipid_own":
+                    own = True
+                    continue
+                if f.kj is not None:
+                    kj[COL[c]] = f.kj
+                if f.kcal is not None:
+                    kcal[COL[c]] = f.kcal
+        return kj, kcal, own
+
+    def factor_for(self, component: str) -> Factor | None:
+        for f in self.factors:
+            if component in f.components or (component == "partial_lipid" and "partial_lipid_own" in f.components):
+                return f
+        return None
+
+
+def rules_dir() -> Path:
+    """The rules folder: ``LABELCALC_RULES`` when set, else the packs shipped inside the package
+    (read through importlib.resources, so a wheel, pipx or a plain install finds them)."""
+    import os
+    from importlib.resources import files
+
+    env = os.environ.get("LABELCALC_RULES")
+    if env:
+        return Path(env)
+    packaged = Path(str(files("labelcalc") / "rules"))
+    if packaged.is_dir():
+        return packaged
+    raise RuleError("the rule packs are missing from this installation: reinstall labelcalc, or set LABELCALC_RULES")
+
+
+@lru_cache(maxsize=64)
+def load_factor_set(ident: str, folder: str | None = None) -> FactorSet:
+    """Load ``rules/energy/<ident>.yaml`` and validate it."""
+    base = Path(folder) if folder else rules_dir()
+    path = base / "energy" / f"{ident}.yaml"
+    if not path.exists():
+        known = sorted(p.stem for p in (base / "energy").glob("*.yaml"))
+        raise UnknownNameError(Problem(f"unknown energy factor set '{ident}'", fix=f"known: {', '.join(known)}"))
+    loaded = load_yaml(path)
+    try:
+        return FactorSet.model_validate(loaded.data)
+    except ValidationError as exc:
+        raise RuleError(pydantic_problems(exc, loaded)) from None
+
+
+# --------------------------------------------------------------- computation
+
+
+@dataclass
+class EnergyResult:
+    """Energy of a composition under one factor set, per 100 g."""
+
+    factor_set: FactorSet
+    kj: float | None
+    kcal: float | None
+    by_component_kj: dict[str, float | None]
+    by_component_kcal: dict[str, float | None]
+    unknown_because: list[str]
+    reviews: list[str]
+
+    def per_serving(self, serving_g: float | None) -> tuple[float | None, float | None]:
+        if serving_g is None:
+            return None, None
+        f = serving_g / 100.0
+        return (None if self.kj is None else self.kj * f, None if self.kcal is None else self.kcal * f)
+
+
+def _energy_vectors(fs: FactorSet):
+    kj, kcal, own = fs.vectors()
+    h = fs.factor_set
+    if own:
+        kj[COL["partial_lipid_kj"]] = 1.0
+        kcal[COL["partial_lipid_kcal"]] = 1.0
+    if h.kcal_from_kj:
+        kcal = kj / h.kcal_from_kj
+    if h.kj_from_kcal:
+        kj = kcal * h.kj_from_kcal
+    return kj, kcal
+
+
+_PREPARED: dict[int, tuple] = {}
+
+
+def _prepare(fs: FactorSet):
+    """Group matrices of a factor set: (groups x columns) kJ and kcal factors and masks."""
+    key = id(fs)
+    if key in _PREPARED and _PREPARED[key][0] is fs:
+        return _PREPARED[key][1]
+    kj_v, kcal_v = _energy_vectors(fs)
+    groups = list(ENERGY_GROUPS)
+    gkj = np.zeros((len(groups), len(COLUMNS)))
+    gkcal = np.zeros_like(gkj)
+    for i, group in enumerate(groups):
+        cols = [COL[m] for m in ENERGY_GROUPS[group] if m in COL]
+        if group == "partial_lipid":
+            cols = [
+                COL[k]
+                for k in (
+                    "partial_lipid",
+                    "partial_lipid_kj",
+                    "partial_lipid_kcal",
+                    "partial_lipid_salatrim",
+                    "partial_lipid_other",
+                )
+            ]
+        gkj[i, cols] = kj_v[cols]
+        gkcal[i, cols] = kcal_v[cols]
+    relevant = (gkj != 0) | (gkcal != 0)
+    reviews = []
+    for f in fs.factors:
+        if f.review:
+            cols = (
+                [COL["partial_lipid"]]
+                if "partial_lipid_own" in f.components
+                else [COL[c] for c in f.components if c in COL]
+            )
+            reviews.append((cols, f.review))
+    prepared = (groups, gkj, gkcal, relevant, reviews)
+    _PREPARED[key] = (fs, prepared)
+    return prepared
+
+
+def energy_of(comp: Composition, fs: FactorSet) -> EnergyResult:
+    """Energy per 100 g of ``comp`` with factor set ``fs`` (cached on the composition).
+
+    With ``ingredient_specific`` (21 CFR 101.9(c)(1)(i)(A)) the protein, fat
+    and carbohydrate terms come from each ingredient's own Atwater factors
+    where the library gives them, general factors elsewhere.
+    """
+    cache = comp.__dict__.setdefault("_energy_cache", {})
+    if fs.id in cache and cache[fs.id].factor_set is fs:
+        return cache[fs.id]
+    groups, gkj, gkcal, relevant, review_cols = _prepare(fs)
+    vals = np.nan_to_num(comp.per_100g)
+    unk = comp.unknown
+    specific = fs.factor_set.ingredient_specific
+    if specific:  # general factors apply only to what specific factors do not cover
+        for k in ATWATER_REPLACED:
+            vals[COL[k]] -= vals[COL[f"atwater_covered_{k}"]]
+    e_kj, e_kcal = gkj @ vals, gkcal @ vals
+    g_unknown = (relevant & unk[None, :]).any(axis=1)
+    by_kj = {g: (None if u else float(x)) for g, x, u in zip(groups, e_kj, g_unknown)}
+    by_kcal = {g: (None if u else float(x)) for g, x, u in zip(groups, e_kcal, g_unknown)}
+    unknown_because = [g for g, u in zip(groups, g_unknown) if u]
+    if specific:
+        c = COL["specific_atwater_kcal"]
+        if unk[c]:
+            by_kcal["specific_atwater"] = by_kj["specific_atwater"] = None
+            unknown_because.append("specific Atwater factors")
+        else:
+            by_kcal["specific_atwater"] = float(vals[c])
+            by_kj["specific_atwater"] = (
+                float(vals[c]) * fs.factor_set.kj_from_kcal if fs.factor_set.kj_from_kcal else None
+            )
+    kj = None if unknown_because or any(v is None for v in by_kj.values()) else float(sum(by_kj.values()))
+    kcal = None if unknown_because else float(sum(v for v in by_kcal.values() if v is not None))
+    reviews = [text for cols, text in review_cols if vals[cols].sum() > 0]
+    res = EnergyResult(fs, kj, kcal, by_kj, by_kcal, unknown_because, reviews)
+    cache[fs.id] = res
+    return res
+
+
+def energy_by_line(comp: Composition, fs: FactorSet) -> list[tuple[str, float | None, float | None]]:
+    """Energy contributed by each batch line and processing step [kJ, kcal per 100 g]."""
+    kj_v, kcal_v = _energy_vectors(fs)
+    labels, rows = comp.contributions
+    if fs.factor_set.ingredient_specific:
+        rows = rows.copy()
+        for k in ATWATER_REPLACED:
+            rows[:, COL[k]] -= np.nan_to_num(rows[:, COL[f"atwater_covered_{k}"]])
+        kcal_v[COL["specific_atwater_kcal"]] = 1.0
+        if fs.factor_set.kj_from_kcal:
+            kj_v[COL["specific_atwater_kcal"]] = fs.factor_set.kj_from_kcal
+    out = []
+    for lab, row in zip(labels, rows):
+        used = (kj_v != 0) | (kcal_v != 0)
+        if np.isnan(row[used]).any():
+            out.append((lab, None, None))
+        else:
+            out.append((lab, float(np.dot(np.nan_to_num(row), kj_v)), float(np.dot(np.nan_to_num(row), kcal_v))))
+    return out

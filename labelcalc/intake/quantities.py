@@ -1,0 +1,65 @@
+"""Amounts with units as written in formula files: "400 g", "0.4 kg", "12 %"."""
+
+from __future__ import annotations
+
+import difflib
+import re
+from dataclasses import dataclass
+from functools import lru_cache
+
+_UNITS = {
+    "g": ("mass", 1.0),
+    "kg": ("mass", 1000.0),
+    "mg": ("mass", 0.001),
+    "%": ("percent", 1.0),
+    "ml": ("volume", 1.0),
+    "l": ("volume", 1000.0),
+}
+_RE = re.compile(r"^\s*([0-9]*\.?[0-9]+(?:[eE][-+]?[0-9]+)?)\s*([A-Za-z%]+)\s*$")
+
+
+@dataclass(frozen=True)
+class Quantity:
+    value: float  # in g, ml, or percent
+    kind: str  # "mass", "percent", "volume"
+    text: str
+
+
+def parse_quantity(text: object, *, allowed: tuple[str, ...] = ("mass", "percent")) -> Quantity:
+    if isinstance(text, str):
+        return _parse_text(text, allowed)
+    return _parse(text, allowed)
+
+
+@lru_cache(maxsize=65536)
+def _parse_text(text: str, allowed: tuple[str, ...]) -> Quantity:
+    return _parse(text, allowed)
+
+
+def _parse(text: object, allowed: tuple[str, ...]) -> Quantity:
+    """Parse "400 g" style text.  Raises ValueError with a message that says what to write.
+
+    >>> parse_quantity("0.4 kg").value
+    400.0
+    >>> parse_quantity("12 %").kind
+    'percent'
+    """
+    if isinstance(text, bool) or text is None:
+        raise ValueError("give an amount with its unit, e.g. '400 g', '0.4 kg' or '12 %'")
+    if isinstance(text, (int, float)):
+        raise ValueError(f"amount {text} has no unit: write e.g. '{text} g', '{text} kg' or '{text} %'")
+    m = _RE.match(str(text))
+    if not m:
+        raise ValueError(f"cannot read amount '{text}': write a number and a unit, e.g. '400 g', '0.4 kg' or '12 %'")
+    number, unit = float(m.group(1)), m.group(2)
+    key = unit.lower() if unit.lower() in _UNITS else unit
+    if key not in _UNITS:
+        near = difflib.get_close_matches(unit.lower(), list(_UNITS), n=2)
+        hint = f" — did you mean '{near[0]}'?" if near else ""
+        raise ValueError(f"unknown unit '{unit}' in '{text}'{hint} (use g, kg or %)")
+    kind, scale = _UNITS[key]
+    if kind not in allowed:
+        raise ValueError(f"'{text}': a {kind} is not allowed here (use {' or '.join(allowed)})")
+    if number <= 0:
+        raise ValueError(f"amount '{text}' must be greater than zero")
+    return Quantity(number * scale, kind, str(text))

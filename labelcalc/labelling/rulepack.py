@@ -1,0 +1,349 @@
+"""Market rule packs: the data that turns one composition into a market's panel.
+
+A pack is one YAML file in ``rules/markets/`` (see DEVELOPERS.md, "Adding a
+market").  The engine (``declare.py``) knows no market by name: everything a
+market does differently is in its pack, each value with its citation and a
+confidence mark.
+"""
+
+from __future__ import annotations
+
+import difflib
+from functools import lru_cache
+from pathlib import Path
+from typing import Literal
+
+from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
+
+from labelcalc.errors import Problem, ProblemList, RuleError, UnknownNameError
+from labelcalc.formulation import components as C
+from labelcalc.formulation.energy import Confidence, load_factor_set, rules_dir
+from labelcalc.intake.yamlsafe import load_yaml, pydantic_problems
+from labelcalc.labelling.rounding import RoundingRule
+from labelcalc.labelling.rulepack_assess import Allergens, Claim, Compliance, FrontOfPack, IngredientListRule, Statement
+
+Basis = Literal["per_100g", "per_serving", "per_container"]
+
+
+class Strict(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+
+class Instrument(Strict):
+    id: str
+    title: str
+    date: str = Field(description="date of the version read (YYYY-MM-DD or YYYY)")
+    url: str | None = None
+
+
+class PackHeader(Strict):
+    market: str = Field(pattern=r"^[a-z][a-z0-9_]*$")
+    name: str
+    version: str
+    language: str = "en"
+    reviewed: str = Field(description="date the pack was last checked against the instruments")
+    instruments: list[Instrument] = Field(min_length=1)
+    draft_notice: str = "DRAFT — verify against current local regulation before use"
+    notes: str | None = None
+
+
+class Cited(Strict):
+    citation: str = Field(min_length=3)
+    confidence: Confidence
+
+
+class ReferenceAmount(Cited):
+    amount_g: float = Field(gt=0, description="[g] reference amount customarily consumed")
+    label: str | None = None
+    small: bool | None = Field(None, description="true when the market treats it as a small reference amount")
+
+
+class DualColumn(Cited):
+    from_percent: float = Field(gt=0, description="container at or above this % of the reference amount ...")
+    to_percent: float = Field(gt=0, description="... and at or below this % gets a second, per-container column")
+
+
+class Servings(Strict):
+    required: bool = Field(description="the market's panel needs a serving size")
+    reference_amounts: dict[str, ReferenceAmount] = Field(default_factory=dict)
+    reference_amount_required: bool = False
+    single_serving_below_percent: float | None = Field(
+        None, description="container below this % of the reference amount is one serving"
+    )
+    single_serving: Cited | None = None
+    dual_column: DualColumn | None = None
+    servings_rounding: str | None = Field(None, description="rounding rule key for servings per container")
+    about_prefix: str | None = Field(None, description="word printed before a rounded number of servings, e.g. 'about'")
+
+
+class NutrientDef(Cited):
+    """How a declared nutrient is built from labelcalc components."""
+
+    unit: Literal["g", "mg", "ug", "kJ", "kcal"]
+    sum: dict[str, float] | None = Field(None, description="component (or derived total) -> factor into this unit")
+    energy: Literal["kJ", "kcal"] | None = Field(None, description="this row is the declared energy in that unit")
+
+    @model_validator(mode="after")
+    def _what(self):
+        if (self.sum is None) == (self.energy is None):
+            raise ValueError("a nutrient is built from 'sum' (components) or is 'energy'")
+        if self.sum:
+            for k in self.sum:
+                if k not in C.BY_KEY and k not in C.DERIVED:
+                    near = difflib.get_close_matches(k, list(C.BY_KEY) + list(C.DERIVED), n=2)
+                    raise ValueError(
+                        f"unknown component '{k}'" + (f" (did you mean {', '.join(near)}?)" if near else "")
+                    )
+        return self
+
+
+class ReferenceValue(Cited):
+    amount: float = Field(gt=0)
+    unit: Literal["g", "mg", "ug", "kJ", "kcal"]
+
+
+class Trigger(Strict):
+    """When a row must be shown.  Every criterion set in one trigger must hold
+    (AND); a row's triggers are alternatives (OR)."""
+
+    claim: str | None = Field(None, description="shown when the formula lists a claim whose name starts with this")
+    present: bool | None = Field(None, description="shown when the declared value is not zero")
+    added: str | None = Field(
+        None, description="shown when an ingredient of this kind is added (e.g. 'polyol', 'fortificant')"
+    )
+    at_least_percent_reference: float | None = Field(
+        None, description="shown when per 100 g it reaches this % of its reference value"
+    )
+    at_least_per_100g: float | None = Field(None, description="shown when per 100 g it reaches this amount")
+
+
+class Row(Strict):
+    nutrient: str
+    label: str
+    requirement: Literal["mandatory", "voluntary", "conditional"]
+    when: list[Trigger] = Field(default_factory=list, description="conditional rows: any trigger shows the row")
+    show: Literal["always", "when_present", "never"] = Field(
+        "when_present", description="voluntary rows: default display"
+    )
+    rounding: str
+    percent: str | None = Field(None, description="reference value key for the percentage column")
+    percent_rounding: str | None = None
+    percent_from: Literal["declared", "unrounded"] | None = None
+    indent: int = Field(0, ge=0, le=3)
+    bold: bool = False
+    italic_words: list[str] = Field(
+        default_factory=list, description="words of the label printed in italics (e.g. 'Trans')"
+    )
+    show_unit: bool = True
+    percent_only: bool = Field(
+        False, description="the row prints only its percentage (e.g. Canada's 'Saturated + Trans')"
+    )
+    citation: str = Field(min_length=3)
+    confidence: Confidence
+
+
+class Footnote(Cited):
+    text: str
+    when: Literal["always", "percent_shown"] = "always"
+
+
+class PanelLayout(Strict):
+    """How the panel is drawn, where the law prescribes a form (sizes in mm and pt)."""
+
+    style: Literal["boxed", "table"] = Field("table", description="boxed: framed facts box; table: ruled table")
+    width_mm: float = Field(80, gt=30, le=200)
+    title_size_pt: float = Field(11, gt=5, le=40)
+    body_size_pt: float = Field(7.5, gt=5, le=14)
+    energy_large: bool = Field(False, description="print the first energy row large (as in a facts box)")
+    heavy_rule_after: list[str] = Field(
+        default_factory=list, description="nutrient keys after which a heavy rule is drawn"
+    )
+    serving_lines_on_top: bool = Field(False, description="servings per container and serving size above the rows")
+    column_headers: dict[str, str] = Field(default_factory=dict, description="basis -> header text")
+    header_note: str | None = Field(None, description="a line under the title, e.g. 'Amount per serving'")
+    amount_after_label: bool = Field(
+        False, description="print the amount right after the row label (one-column facts boxes)"
+    )
+    compact_units: bool = Field(False, description="print '8g' rather than '8 g' after the label")
+    servings_text: str = Field("{n} servings per container", description="wording of the servings line ({n})")
+    serving_text: str = Field("Serving size", description="label of the serving size line")
+    citation: str | None = None
+
+
+class Panel(Strict):
+    title: str
+    energy_factor_set: str
+    bases: list[Basis] = Field(min_length=1, description="columns the market prints, in order")
+    rounding_basis: Literal["per_100g", "per_serving", "each"] = Field(
+        "each", description="which column's value is rounded (each = every column on its own)"
+    )
+    percent_label: str | None = None
+    percent_basis: Basis | None = None
+    percent_from: Literal["declared", "unrounded"] = "declared"
+    percent_from_citation: str | None = None
+    column_labels: dict[str, str] = Field(default_factory=dict)
+    unit_labels: dict[str, str] = Field(default_factory=dict, description="how units are printed, e.g. {ug: mcg}")
+    energy_factor_sets_allowed: list[str] = Field(
+        default_factory=list,
+        description="other factor sets the law allows; a formula may pick one (product.energy_methods)",
+    )
+    footnotes: list[Footnote] = Field(default_factory=list)
+    liquid_unit_basis: str = "per 100 ml"
+    layout: PanelLayout = Field(default_factory=PanelLayout)
+    citation: str = Field(min_length=3)
+    confidence: Confidence
+
+
+class RulePack(Strict):
+    pack: PackHeader
+    panel: Panel
+    servings: Servings
+    nutrients: dict[str, NutrientDef]
+    reference_values: dict[str, ReferenceValue] = Field(default_factory=dict)
+    rounding: dict[str, RoundingRule]
+    rows: list[Row] = Field(min_length=1)
+    claims: list[Claim] = Field(default_factory=list)
+    statements: list[Statement] = Field(default_factory=list)
+    allergens: Allergens | None = None
+    ingredient_list: IngredientListRule | None = None
+    front_of_pack: list[FrontOfPack] = Field(default_factory=list)
+    compliance: Compliance | None = None
+
+    @model_validator(mode="after")
+    def _refs(self):
+        errs = []
+        for i, r in enumerate(self.rows):
+            if r.nutrient not in self.nutrients:
+                errs.append(f"rows[{i}] nutrient '{r.nutrient}' is not defined under 'nutrients'")
+            if r.rounding not in self.rounding:
+                errs.append(f"rows[{i}] rounding '{r.rounding}' is not defined under 'rounding'")
+            if r.percent and r.percent not in self.reference_values:
+                errs.append(f"rows[{i}] percent '{r.percent}' is not defined under 'reference_values'")
+            if r.percent and not (r.percent_rounding or "percent" in self.rounding):
+                errs.append(f"rows[{i}] has a percentage but no percent_rounding")
+            if r.percent_rounding and r.percent_rounding not in self.rounding:
+                errs.append(f"rows[{i}] percent_rounding '{r.percent_rounding}' is not defined under 'rounding'")
+            if r.requirement == "conditional" and not r.when:
+                errs.append(f"rows[{i}] is conditional but has no 'when' triggers")
+        for i, cl in enumerate(self.claims):
+            for cond in cl.conditions + [c for g in cl.alternatives for c in g]:
+                if cond.quantity not in self.nutrients:
+                    errs.append(f"claims[{i}] ({cl.id}) uses '{cond.quantity}', which is not defined under 'nutrients'")
+        ids = [c.id for c in self.claims]
+        if len(ids) != len(set(ids)):
+            errs.append("claim ids must be unique")
+        for i, st in enumerate(self.statements):
+            for t in st.triggers:
+                for cond in t.conditions:
+                    if cond.quantity not in self.nutrients:
+                        errs.append(
+                            f"statements[{i}] ({st.id}) uses '{cond.quantity}', which is not defined under 'nutrients'"
+                        )
+        for rule in self.compliance.rules if self.compliance else []:
+            for k in rule.nutrients:
+                if k not in self.nutrients:
+                    errs.append(f"compliance rule {rule.id} uses '{k}', which is not defined under 'nutrients'")
+        for fop in self.front_of_pack:
+            for k in list(fop.nutrients or {}) + list(fop.high_in or {}):
+                if k not in self.nutrients:
+                    errs.append(f"front_of_pack {fop.id} uses '{k}', which is not defined under 'nutrients'")
+            for k in (fop.high_in or {}).values():
+                if k not in self.reference_values:
+                    errs.append(f"front_of_pack {fop.id} uses reference value '{k}', which is not defined")
+        s = self.servings
+        if s.servings_rounding and s.servings_rounding not in self.rounding:
+            errs.append(f"servings.servings_rounding '{s.servings_rounding}' is not defined under 'rounding'")
+        if errs:
+            raise ValueError("; ".join(errs))
+        return self
+
+    @property
+    def market(self) -> str:
+        return self.pack.market
+
+
+def packs_dir(folder: str | Path | None = None) -> Path:
+    return Path(folder) if folder else rules_dir() / "markets"
+
+
+def load_pack_file(path: str | Path, rules_root: str | Path | None = None) -> RulePack:
+    """Load and validate one pack file; problems name the file, line and key."""
+    loaded = load_yaml(path)
+    if not isinstance(loaded.data, dict):
+        raise RuleError(
+            Problem(
+                "not a rule pack: expected a mapping with pack, panel, servings, nutrients, rounding, rows",
+                file=loaded.file,
+                line=1,
+            )
+        )
+    try:
+        pack = RulePack.model_validate(loaded.data)
+    except ValidationError as exc:
+        raise RuleError(pydantic_problems(exc, loaded)) from None
+    root = Path(rules_root) if rules_root else Path(path).resolve().parent.parent
+    try:
+        load_factor_set(pack.panel.energy_factor_set, str(root) if (root / "energy").is_dir() else None)
+    except (RuleError, UnknownNameError) as exc:
+        raise RuleError(
+            Problem(
+                f"energy_factor_set: {exc}",
+                file=loaded.file,
+                line=loaded.line_of(("panel", "energy_factor_set")),
+                field="panel.energy_factor_set",
+            )
+        ) from None
+    return pack
+
+
+@lru_cache(maxsize=16)
+def _load_all(folder: str) -> tuple[dict[str, RulePack], tuple]:
+    base = Path(folder)
+    if not base.is_dir():
+        raise RuleError(Problem("rule pack folder not found", file=str(base), fix="check --rules"))
+    problems = ProblemList()
+    packs: dict[str, RulePack] = {}
+    files = sorted(base.glob("*.yaml"))
+    root = base.parent if (base.parent / "energy").is_dir() else None
+    for f in files:
+        try:
+            p = load_pack_file(f, root)
+        except RuleError as exc:
+            problems.problems += exc.problems
+            continue
+        if p.market in packs:
+            problems.add(f"market '{p.market}' is defined twice", file=str(f))
+        packs[p.market] = p
+    return packs, tuple(problems.problems)
+
+
+def load_packs(folder: str | Path | None = None) -> dict[str, RulePack]:
+    """All packs in a folder, keyed by market code; any broken pack is an error."""
+    packs, problems = _load_all(str(packs_dir(folder).resolve()))
+    if problems:
+        raise RuleError(list(problems))
+    return packs
+
+
+def get_packs(codes: list[str], folder: str | Path | None = None) -> list[RulePack]:
+    """Packs for market codes such as ['us', 'eu']; an unknown code is a clear error.
+    A broken pack of another market does not stop the requested ones."""
+    packs, problems = _load_all(str(packs_dir(folder).resolve()))
+    out = []
+    for code in codes:
+        code = code.strip().lower()
+        if code not in packs and problems:
+            raise RuleError(
+                [Problem(f"market '{code}' could not be loaded; the rule pack folder has problems")] + list(problems)
+            )
+        if code not in packs:
+            near = difflib.get_close_matches(code, list(packs), n=2)
+            raise UnknownNameError(
+                Problem(
+                    f"unknown market '{code}'",
+                    fix=(f"did you mean {', '.join(near)}? " if near else "")
+                    + f"known markets: {', '.join(sorted(packs))}",
+                )
+            )
+        out.append(packs[code])
+    return out

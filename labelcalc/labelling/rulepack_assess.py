@@ -1,0 +1,245 @@
+"""Rule-pack sections for claims, statements, allergens, ingredient lists and
+front-of-pack schemes (the data ``assess.py`` applies).
+
+They are optional sections of the same market pack as the panel rules.
+"""
+
+from __future__ import annotations
+
+from typing import Literal
+
+from pydantic import BaseModel, ConfigDict, Field, model_validator
+
+from labelcalc.formulation.energy import Confidence
+
+ClaimBasis = Literal[
+    "per_reference_amount",
+    "per_serving",
+    "per_50g_if_small",
+    "per_100g",
+    "per_100kcal",
+    "percent_energy",
+    "per_100g_or_100ml",
+]
+
+
+class Strict(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+
+class Condition(Strict):
+    """A comparison of one unrounded figure with a limit.
+
+    ``quantity`` is a nutrient key of the pack.  With ``versus_reference`` the
+    compared figure is the change against the formula's reference formula:
+    ``reduction_percent`` = (ref - this) / ref x 100, ``increase_percent``,
+    ``reduction_absolute`` = ref - this (in the nutrient's unit).
+    """
+
+    quantity: str
+    basis: ClaimBasis
+    op: Literal["<", "<=", ">", ">="]
+    value: float
+    kcal_per_g: float | None = Field(None, description="for percent_energy: the energy factor of the quantity [kcal/g]")
+    versus_reference: Literal["reduction_percent", "increase_percent", "reduction_absolute"] | None = None
+    note: str | None = None
+
+    @model_validator(mode="after")
+    def _energy(self):
+        if self.basis == "percent_energy" and self.kcal_per_g is None:
+            raise ValueError("a percent_energy condition needs kcal_per_g")
+        return self
+
+
+class ClaimText(Strict):
+    text: str
+    citation: str
+    confidence: Confidence
+    unless_eligible: list[str] = Field(
+        default_factory=list, description="not needed when one of these claims is eligible (e.g. low_calorie)"
+    )
+
+
+class Claim(Strict):
+    id: str = Field(pattern=r"^[a-z][a-z0-9_]*$")
+    label: str
+    kind: Literal["absolute", "comparative"] = "absolute"
+    applies_to: Literal["any", "solid", "liquid"] = "any"
+    conditions: list[Condition] = Field(default_factory=list, description="all must hold")
+    alternatives: list[list[Condition]] = Field(
+        default_factory=list, description="at least one group must hold in full"
+    )
+    no_ingredient_kinds: list[str] = Field(
+        default_factory=list,
+        description="an added ingredient of these kinds needs review (e.g. allowed with a footnote)",
+    )
+    fails_with_ingredient_kinds: list[str] = Field(
+        default_factory=list,
+        description="an added ingredient of these kinds makes the claim not eligible (e.g. no added sugars)",
+    )
+    reference_must_not_qualify: str | None = Field(
+        None, description="id of a claim the reference food may not itself meet"
+    )
+    texts: list[ClaimText] = Field(default_factory=list, description="text the label must carry with the claim")
+    citation: str = Field(min_length=3)
+    confidence: Confidence
+
+    @model_validator(mode="after")
+    def _some(self):
+        if not self.conditions and not self.alternatives:
+            raise ValueError("a claim needs conditions or alternatives")
+        uses_ref = any(c.versus_reference for c in self.conditions + [x for g in self.alternatives for x in g])
+        if uses_ref and self.kind != "comparative":
+            raise ValueError("conditions against the reference formula need kind: comparative")
+        return self
+
+
+class StatementTrigger(Strict):
+    """One way a statement becomes required (a statement's triggers are alternatives)."""
+
+    substance: str | None = Field(None, description="an ingredient with this substance is used (e.g. aspartame)")
+    kind: str | None = Field(None, description="an ingredient of this kind is used (e.g. sweetener)")
+    components: list[str] | None = Field(None, description="sum of these components (or derived totals) ...")
+    from_kinds: list[str] | None = Field(
+        None, description="... counting only what ingredients of these kinds bring (e.g. added polyols)"
+    )
+    basis: Literal["per_100g", "per_serving"] = "per_100g"
+    at_least: float | None = None
+    above: float | None = None
+    present: bool | None = Field(None, description="true: any amount above zero")
+    with_claim: bool | None = Field(None, description="only when a claim is made (or eligible)")
+    conditions: list[Condition] = Field(default_factory=list, description="with with_claim: any of these conditions")
+
+
+class Compensation(Strict):
+    """Amounts a market requires to be added per gram of a component (e.g. vitamins per g of a non-absorbed lipid)."""
+
+    per_gram_of: str
+    required: dict[str, float] = Field(description="component -> amount per gram, in the component's own unit")
+    from_kinds: list[str] = Field(
+        default_factory=lambda: ["fortificant"], description="ingredient kinds that count as added"
+    )
+    notes: str | None = None
+
+
+class Statement(Strict):
+    id: str = Field(pattern=r"^[a-z][a-z0-9_]*$")
+    text: str
+    status: Literal["required", "review"] = Field(
+        "required", description="review: an advisory note for a regulatory professional, not a label text"
+    )
+    triggers: list[StatementTrigger] = Field(min_length=1)
+    caution: str | None = None
+    placement: str | None = None
+    compensation: Compensation | None = None
+    daily_intake_g: float | None = Field(
+        None, description="intake per day that triggers the statement (for a servings-to-reach figure)"
+    )
+    citation: str = Field(min_length=3)
+    confidence: Confidence
+
+
+class AllergenEntry(Strict):
+    name: str = Field(description="the name the market prescribes in the statement")
+    from_keys: list[str] = Field(description="library allergen keys that map to this entry")
+    threshold_mg_per_kg: float | None = Field(None, description="declared only from this level (sulphites)")
+    threshold_inclusive: bool = Field(True, description="true: declared at the threshold; false: only above it")
+    component: str | None = Field(None, description="component holding the amount for a threshold (e.g. sulphites)")
+    name_species: bool = Field(False, description="the specific kind must be named (e.g. the tree nut)")
+
+
+class Allergens(Strict):
+    entries: dict[str, AllergenEntry]
+    summary_prefix: str = "Contains:"
+    summary: Literal["required", "optional", "when_not_in_list"] = "optional"
+    emphasis: Literal["bold", "parentheses", "bold_and_summary"] = "bold"
+    citation: str = Field(min_length=3)
+    confidence: Confidence
+
+
+class QuidRule(Strict):
+    for_ingredients_named_in: Literal["product_name"] = "product_name"
+    basis: Literal["at_time_of_use_per_finished"] = "at_time_of_use_per_finished"
+    over_100_text: str = Field(
+        "made with {grams:g} g of {name} per 100 g of product",
+        description="wording when moisture loss makes the share exceed 100 %",
+    )
+    citation: str = Field(min_length=3)
+    confidence: Confidence
+
+
+class IngredientListRule(Strict):
+    heading: str = "Ingredients:"
+    order: Literal["weight_at_use"] = "weight_at_use"
+    water: Literal["as_used", "finished_product"] = Field(
+        "as_used", description="finished_product: added water by its weight in the finished product"
+    )
+    water_omit_up_to_percent: float | None = Field(
+        None, description="added water at or below this % of the finished product need not be listed"
+    )
+    compound: Literal["components_in_parentheses"] = "components_in_parentheses"
+    quid: QuidRule | None = None
+    citation: str = Field(min_length=3)
+    confidence: Confidence
+
+
+class FopBand(Strict):
+    low_up_to: float = Field(description="per 100 g: low at or below this")
+    high_above: float = Field(description="per 100 g: high above this")
+    portion_high_above: float | None = Field(None, description="per portion: high above this")
+    unit: str
+
+
+class FrontOfPack(Strict):
+    id: str
+    name: str
+    kind: Literal["colour_bands", "high_in_symbol"]
+    nutrients: dict[str, FopBand] | None = None
+    liquid_nutrients: dict[str, FopBand] | None = None
+    portion_rule_above_g: float | None = None
+    high_in: dict[str, str] | None = Field(None, description="nutrient -> reference value key (high_in_symbol)")
+    thresholds: list[dict] | None = Field(
+        None, description="[{reference_amount_up_to: 30, percent: 10}, {main_dish: true, percent: 30}, {percent: 15}]"
+    )
+    exempt_kinds: list[str] = Field(default_factory=list)
+    citation: str = Field(min_length=3)
+    confidence: Confidence
+
+
+class ToleranceBand(Strict):
+    """Allowed deviation of an analysed value from the declared one, for declared amounts in a range."""
+
+    below: float | None = Field(None, description="band holds when the declared value (per 100 g) is below this")
+    minus: float | None = Field(None, ge=0, description="allowed shortfall, absolute, in the nutrient's unit")
+    plus: float | None = Field(None, ge=0, description="allowed excess, absolute")
+    minus_percent: float | None = Field(None, ge=0)
+    plus_percent: float | None = Field(None, ge=0)
+
+
+class ComplianceRule(Strict):
+    """How an analysed value is judged against a declared one (a market's compliance rule)."""
+
+    id: str
+    nutrients: list[str] = Field(min_length=1, description="pack nutrient keys the rule covers")
+    applies_to: Literal["any", "added", "naturally_occurring"] = Field(
+        "any", description="added: the nutrient is added (fortificant ingredients); naturally_occurring: it is not"
+    )
+    basis: Literal["per_100g", "per_serving"] = "per_100g"
+    compare_with: Literal["declared", "unrounded"] = "declared"
+    min_percent_of_declared: float | None = None
+    max_percent_of_declared: float | None = None
+    bands: list[ToleranceBand] = Field(default_factory=list)
+    uncertainty: Literal["included", "widens"] = Field(
+        "included",
+        description="included: the limits already allow for measurement uncertainty; widens: the lab's expanded uncertainty is added",
+    )
+    citation: str = Field(min_length=3)
+    confidence: Confidence
+    note: str | None = None
+
+
+class Compliance(Strict):
+    rules: list[ComplianceRule]
+    default_uncertainty_note: str | None = None
+    citation: str = Field(min_length=3)
+    confidence: Confidence

@@ -1,0 +1,99 @@
+"""Writing panel drafts and calculation sheets for one product or a range."""
+
+from __future__ import annotations
+
+from concurrent.futures import ProcessPoolExecutor
+from datetime import date as _date
+from pathlib import Path
+
+from labelcalc.errors import LabelError
+from labelcalc.files import inside, safe_name
+from labelcalc.formulation.composition import compose
+from labelcalc.intake.formula import FormulaIndex, load_formula
+from labelcalc.intake.library import Library, load_library
+from labelcalc.labelling.assess import assess_against
+from labelcalc.labelling.rulepack import RulePack, get_packs
+from labelcalc.outputs.calcsheet import write_calculation_csv
+from labelcalc.outputs.panelpdf import write_panel_pdf
+from labelcalc.outputs.preflight import run_checks
+
+
+def panels_for(
+    formula_path: Path,
+    library: Library,
+    packs: list[RulePack],
+    out: Path,
+    date: str,
+    reference=None,
+    *,
+    calculation_pages: bool = True,
+    index: FormulaIndex | None = None,
+) -> tuple[list[Path], list[str]]:
+    """Write `<id>.<market>.pdf` and `<id>.<market>.calculation.csv` for every market.
+
+    Returns the files and the failed pre-flight checks (as text)."""
+    f = load_formula(formula_path, library, _index=index) if index else load_formula(formula_path, library)
+    comps = compose(f, library)
+    files, failures = [], []
+    out.mkdir(parents=True, exist_ok=True)
+    stem = safe_name(f.id)
+    for p in packs:
+        items = []
+        try:
+            for i, c in enumerate(comps):
+                a = assess_against(c, p, reference, i)
+                checks = run_checks(a)
+                failures += [f"{f.id} [{p.market}, {c.scenario}] {x.name}: {x.detail}" for x in checks if not x.ok]
+                items.append((a, checks))
+        except LabelError as exc:  # this market cannot label the product; the others still get their panels
+            failures.append(f"{f.id} [{p.market}]: {exc}")
+            continue
+        pdf = write_panel_pdf(items, inside(out, f"{stem}.{p.market}.pdf"), date, calculation=calculation_pages)
+        csvp = write_calculation_csv([a for a, _ in items], inside(out, f"{stem}.{p.market}.calculation.csv"))
+        files += [pdf, csvp]
+    return files, failures
+
+
+_STATE: dict = {}
+
+
+def _one(args):
+    """Panels of one product of a range; library and sub-formula index are loaded once per process."""
+    path, lib_path, markets, rules, out, date, search = args
+    key = (lib_path, tuple(search))
+    if key not in _STATE:
+        _STATE.clear()
+        _STATE[key] = (load_library(lib_path), FormulaIndex([Path(x) for x in search]) if search else None)
+    lib, index = _STATE[key]
+    try:
+        # range runs: panel pages in the PDF, the calculation sheet as CSV (labelcalc panel adds its PDF pages)
+        return panels_for(
+            Path(path), lib, get_packs(markets, rules), Path(out), date, calculation_pages=False, index=index
+        )
+    except LabelError as exc:
+        return [], [f"{path}: {exc}"]
+
+
+def write_panels(
+    source: Path, lib_path: Path, markets: list[str], rules, out: Path, *, jobs: int = 1, date: str | None = None
+) -> list[Path]:
+    """Panels for every product file of a range folder (spreadsheet ranges: not yet)."""
+    from labelcalc.intake.sources import product_files
+
+    date = date or _date.today().isoformat()
+    paths = product_files(source) if source.is_dir() else []
+    search = [str(source)] if source.is_dir() else []
+    args = [
+        (str(p), str(lib_path), markets, str(rules) if rules else None, str(out / "panels"), date, search)
+        for p in paths
+    ]
+    files: list[Path] = []
+    if jobs > 1:
+        with ProcessPoolExecutor(max_workers=jobs) as ex:
+            for fs, _ in ex.map(_one, args, chunksize=max(1, len(args) // (jobs * 4) or 1)):
+                files += fs
+    else:
+        for a in args:
+            fs, _ = _one(a)
+            files += fs
+    return files

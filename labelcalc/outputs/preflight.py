@@ -1,0 +1,166 @@
+"""Pre-flight consistency checks run on every panel before it is written.
+
+* the declared energy agrees with energy recomputed from the declared
+  macronutrients, within what rounding allows;
+* no sub-row exceeds its parent (sugars within carbohydrate, saturates within fat);
+* printed kJ and kcal each agree with the market's factors;
+* every claim listed is re-tested on the same unrounded figures;
+* the panel carries the formula's content hash.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from labelcalc.formulation.composition import COL
+from labelcalc.formulation.energy import _energy_vectors
+from labelcalc.labelling.assess import ELIGIBLE, Assessment, _Context, evaluate_claim
+from labelcalc.labelling.declare import Declaration
+
+
+@dataclass
+class Check:
+    name: str
+    ok: bool
+    detail: str
+
+
+def _half_step(decl: Declaration, nutrient: str, basis: str) -> float:
+    row = next(r for r in decl.pack.rows if r.nutrient == nutrient)
+    dr = next(r for r in decl.rows if r.nutrient == nutrient).declared[basis]
+    rule = decl.pack.rounding[row.rounding]
+    band = rule.bands[dr.band]
+    if band.step:
+        return band.step / 2
+    if band.declare is not None:
+        bound = band.below if band.below is not None else band.up_to
+        return float(bound or 0)
+    if dr.number is not None and dr.number != 0:  # half a unit in the last significant place
+        exp = dr.number.adjusted() - band.significant_figures + 1
+        return max(10.0**exp, band.min_step or 0.0) / 2
+    return 0.0
+
+
+def _energy_check(decl: Declaration, basis: str) -> list[Check]:
+    out = []
+    pack = decl.pack
+    comp = decl.composition
+    kj_v, kcal_v = _energy_vectors(decl.declared_energy.factor_set)
+    vals = np.nan_to_num(comp.per_100g)
+    energy_rows = {pack.nutrients[r.nutrient].energy: r for r in decl.shown_rows if pack.nutrients[r.nutrient].energy}
+    top = [r for r in decl.shown_rows if r.indent == 0 and not pack.nutrients[r.nutrient].energy and r.unit == "g"]
+    for unit, er in energy_rows.items():
+        vec = kcal_v if unit == "kcal" else kj_v
+        d = er.declared.get(basis)
+        if d is None or d.number is None:
+            continue
+        recomputed = 0.0
+        tol = _half_step(decl, er.nutrient, basis)
+        covered = np.zeros(len(vals), dtype=bool)
+        for r in top:
+            nd = pack.nutrients[r.nutrient]
+            comps = [c for k in (nd.sum or {}) for c in _expand(k)]
+            cols = [COL[c] for c in comps if c in COL]
+            grams = float(vals[cols].sum())
+            if grams <= 0:
+                continue
+            factor = float(np.dot(vals[cols], vec[cols])) / grams
+            covered[cols] = True
+            dv = r.declared.get(basis)
+            if dv is None:
+                continue
+            amount = float(dv.number) if dv.number is not None else r.unrounded.get(basis) or 0.0
+            recomputed += amount * factor
+            tol += _half_step(decl, r.nutrient, basis) * factor
+        scale = {
+            "per_100g": 1.0,
+            "per_serving": (decl.serving_g or 0) / 100,
+            "per_container": (decl.container_g or 0) / 100,
+        }[basis]
+        rest = float(np.dot(np.where(covered, 0.0, vals), vec)) * scale
+        if decl.declared_energy.factor_set.factor_set.ingredient_specific:
+            rest = 0.0
+            tol += 0.05 * float(d.number)
+        recomputed += rest
+        ok = abs(float(d.number) - recomputed) <= tol + 1e-6
+        out.append(
+            Check(
+                f"energy ({unit}, {basis.replace('_', ' ')})",
+                ok,
+                f"declared {d.text} {unit}; from the declared amounts {recomputed:.0f} {unit} "
+                f"(rounding allows ±{tol:.0f})",
+            )
+        )
+        # the printed figure must be the rounding of the factor-set energy
+        un = er.unrounded.get(basis)
+        if un is not None:
+            ok2 = abs(float(d.number) - un) <= _half_step(decl, er.nutrient, basis) + 1e-6
+            out.append(
+                Check(
+                    f"{unit} from the market's factors ({basis.replace('_', ' ')})",
+                    ok2,
+                    f"{decl.declared_energy.factor_set.id}: {un:.1f} {unit} unrounded, printed {d.text}",
+                )
+            )
+    return out
+
+
+def _expand(key: str) -> list[str]:
+    from labelcalc.formulation import components as C
+
+    return list(C.DERIVED.get(key, (key,)))
+
+
+def _subrow_checks(decl: Declaration, basis: str) -> list[Check]:
+    out = []
+    stack: list = []
+    for r in decl.shown_rows:
+        while stack and stack[-1].indent >= r.indent:
+            stack.pop()
+        parent = stack[-1] if stack else None
+        if parent is not None and r.indent > 0 and parent.unit == r.unit:
+            a, b = r.declared.get(basis), parent.declared.get(basis)
+            if a is not None and b is not None and a.number is not None and b.number is not None:
+                label = r.label.replace("{amount}", "").replace("Includes", "").strip()
+                out.append(
+                    Check(
+                        f"{label} within {parent.label} ({basis.replace('_', ' ')})",
+                        a.number <= b.number,
+                        f"{a.text} {r.unit} vs {b.text} {parent.unit}",
+                    )
+                )
+        stack.append(r)
+    return out
+
+
+def _claim_checks(a: Assessment) -> list[Check]:
+    d = a.declaration
+    ctx = _Context(d.composition, d.pack, d)
+    out = []
+    by_id = {c.id: c for c in d.pack.claims}
+    for v in a.claims:
+        if v.verdict != ELIGIBLE or v.claim not in by_id:
+            continue
+        again = evaluate_claim(by_id[v.claim], ctx, None) if by_id[v.claim].kind != "comparative" else v
+        out.append(
+            Check(
+                f"claim '{v.label}' re-tested",
+                again.verdict == v.verdict,
+                f"{again.verdict} on the unrounded figures the panel is drawn from",
+            )
+        )
+    return out
+
+
+def run_checks(a: Assessment) -> list[Check]:
+    d = a.declaration
+    checks: list[Check] = []
+    for basis in d.columns:
+        checks += _energy_check(d, basis)
+        checks += _subrow_checks(d, basis)
+    checks += _claim_checks(a)
+    h = d.composition.formula.content_hash
+    checks.append(Check("formula content hash", bool(h), f"panel drawn from formula hash {h}"))
+    return checks
