@@ -8,9 +8,11 @@ digit a label can show), so a value of 4.5 g is compared as exactly 4.5.
 
 from __future__ import annotations
 
+from dataclasses import dataclass
 from decimal import ROUND_HALF_EVEN, ROUND_HALF_UP, Decimal
 from typing import Literal
 
+import numpy as np
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
 TIE_MODES = {"half_up": ROUND_HALF_UP, "half_even": ROUND_HALF_EVEN}
@@ -140,7 +142,9 @@ class Rounded(BaseModel):
     less_than: bool = False
 
 
-def apply_rounding(value: float | Decimal, rule: RoundingRule, others: dict[str, Decimal] | None = None) -> Rounded:
+def apply_rounding(
+    value: float | Decimal, rule: RoundingRule, others: dict[str, Decimal | None] | None = None
+) -> Rounded:
     """Round ``value`` by ``rule``'s bands and return number and text (no unit).
 
     >>> from labelcalc.labelling.rounding import RoundingRule
@@ -149,23 +153,144 @@ def apply_rounding(value: float | Decimal, rule: RoundingRule, others: dict[str,
     >>> apply_rounding(4.75, r).text, apply_rounding(0.49, r).text, apply_rounding(5.5, r).text
     ('5', '0', '6')
     """
-    v = to_decimal(value)
-    others = {} if others is None else others
+    q = np.array([_q_of_decimal(to_decimal(value))], dtype=np.int64)
+    others = others if others is not None else {}
+    oq = {}
+    for k in {c.nutrient for b in rule.bands for c in b.only_if if c.nutrient in others}:
+        v = others[k]
+        oq[k] = (np.array([0 if v is None else _q_of_decimal(v)], dtype=np.int64), np.array([v is not None]))
+    return round_values(q, rule, oq).rounded(0)
+
+
+#: values are rounded as integers of 1e-9 units: exact, and the same quantisation as :func:`to_decimal`
+Q = 10**9
+#: "no number" in a rounded array (a fixed text such as "less than 1")
+NONE = np.iinfo(np.int64).min
+
+
+def _q_of_decimal(d: Decimal) -> int:
+    return int(d.scaleb(9).to_integral_value(rounding=ROUND_HALF_EVEN))
+
+
+def q_of(x: np.ndarray) -> np.ndarray:
+    """Floats to exact 1e-9 integers, rounding the binary value as :func:`to_decimal` does (NaN -> 0;
+    callers keep unknowns in a mask of their own)."""
+    return np.round(np.nan_to_num(np.asarray(x, dtype=float)) * Q).astype(np.int64)
+
+
+def q_scalar(v: float) -> int:
+    return _q_of_decimal(to_decimal(v))
+
+
+_TEXT_CACHE: dict[tuple[int, int | None], str] = {}
+
+
+def text_of(qv: int, places: int | None) -> str:
+    """Printed text of a 1e-9 integer, with ``places`` decimals kept (None: trailing zeros dropped)."""
+    key = (qv, places)
+    t = _TEXT_CACHE.get(key)
+    if t is None:
+        t = format_number(Decimal(int(qv)).scaleb(-9), None if places is None else Decimal(1).scaleb(-places))
+        if len(_TEXT_CACHE) < 2_000_000:
+            _TEXT_CACHE[key] = t
+    return t
+
+
+def _step_round(qv: np.ndarray, step: np.ndarray | int, tie: str) -> np.ndarray:
+    n, rem = np.divmod(qv, step)
+    twice = 2 * rem
+    up = twice > step
+    if tie == "half_up":
+        up |= twice == step
+    else:
+        up |= (twice == step) & (n % 2 == 1)
+    return (n + up) * step
+
+
+@dataclass
+class RoundedArray:
+    """Rounded figures of many values under one rule (see :func:`round_values`)."""
+
+    number: np.ndarray  # int64 in 1e-9 units, NONE for a text-only form
+    band: np.ndarray  # index of the band applied
+    texts: list[str]
+    less_than: np.ndarray  # the text stands for "less than" (not for zero)
+
+    def rounded(self, i: int) -> Rounded:
+        n = int(self.number[i])
+        num = None if n == NONE else Decimal(n).scaleb(-9).normalize() if n else _ZERO
+        return Rounded(number=num, text=self.texts[i], band=int(self.band[i]), less_than=bool(self.less_than[i]))
+
+
+def round_values(
+    qv: np.ndarray, rule: RoundingRule, others: dict[str, tuple[np.ndarray, np.ndarray]] | None = None
+) -> RoundedArray:
+    """Round non-negative values given as 1e-9 integers by ``rule``'s ordered bands, all at once.
+
+    ``others`` maps a nutrient to (its 1e-9 integers, known mask) for the bands' "only if" conditions.
+    This is the one implementation of banded rounding; :func:`apply_rounding` is its single-value form.
+    Exact: thresholds and steps are compared and applied in integer arithmetic.
+    """
+    n = len(qv)
+    band = np.full(n, -1)
+    number = np.zeros(n, dtype=np.int64)
+    less = np.zeros(n, dtype=bool)
+    fixed_text: dict[int, str] = {}
+    places = np.full(n, -1)
+    open_ = np.ones(n, dtype=bool)
     for i, b in enumerate(rule.bands):
-        if not b.holds(v) or not all(_cond(c, others) for c in b.only_if):
+        if not open_.any():
+            break
+        holds = open_.copy()
+        if b.below is not None:
+            holds &= qv < q_scalar(b.below)
+        elif b.up_to is not None:
+            holds &= qv <= q_scalar(b.up_to)
+        for c in b.only_if:
+            other = (others or {}).get(c.nutrient)
+            if other is None:
+                holds &= False
+                continue
+            oq, known = other
+            ok = known.copy()
+            if c.below is not None:
+                ok &= oq < q_scalar(c.below)
+            if c.up_to is not None:
+                ok &= oq <= q_scalar(c.up_to)
+            if c.at_least is not None:
+                ok &= oq >= q_scalar(c.at_least)
+            holds &= ok
+        if not holds.any():
             continue
+        band[holds] = i
         if b.declare is not None:
-            num = to_decimal(b.value) if b.value is not None else None
-            return Rounded(number=num, text=b.declare, band=i, less_than=num is None or num != 0)
-        if b.step is not None:
-            step = b._step
-            r = round_to_step(v, step, rule.tie)
-            return Rounded(number=r, text=format_number(r, step if rule.keep_trailing_zeros else None), band=i)
-        r = round_significant(v, b.significant_figures, rule.tie)  # type: ignore[arg-type]
-        if b.min_step:
-            r = round_to_step(r, to_decimal(b.min_step), rule.tie)
-        return Rounded(number=r, text=format_number(r), band=i)
-    raise ValueError("no rounding band holds")  # guarded by the open last band
+            number[holds] = NONE if b.value is None else q_scalar(b.value)
+            less[holds] = b.value is None or b.value != 0
+            fixed_text[i] = b.declare
+        elif b.step is not None:
+            number[holds] = _step_round(qv[holds], q_scalar(b.step), rule.tie)
+            if rule.keep_trailing_zeros:
+                places[holds] = max(0, -Decimal(str(b.step)).normalize().as_tuple().exponent)
+        else:
+            x = qv[holds]
+            pos = x > 0
+            digits = np.zeros_like(x)
+            digits[pos] = np.floor(np.log10(x[pos].astype(float))).astype(np.int64) + 1
+            p10 = np.power(10, np.clip(digits - 1, 0, 18)).astype(np.int64)  # float log10 at powers of ten
+            digits = np.where(pos & (x < p10), digits - 1, digits)
+            step = np.power(10, np.clip(digits - b.significant_figures, 0, 18)).astype(np.int64)
+            r = np.where(pos, _step_round(x, step, rule.tie), 0)
+            if b.min_step:
+                r = _step_round(r, q_scalar(b.min_step), rule.tie)
+            number[holds] = r
+        open_ &= ~holds
+    if open_.any():
+        raise ValueError("no rounding band holds")  # guarded by the open last band
+    texts = [
+        fixed_text[int(bi)] if int(bi) in fixed_text else text_of(int(num), None if pl < 0 else int(pl))
+        for bi, num, pl in zip(band, number, places)
+    ]
+    return RoundedArray(number, band, texts, less)
 
 
 def _cond(c: Condition, others: dict[str, Decimal]) -> bool:
