@@ -16,7 +16,8 @@ from labelcalc.formulation.composition import Composition, compose, compose_many
 from labelcalc.formulation.energy import EnergyResult, energy_of, load_factor_set, rules_dir
 from labelcalc.intake.formula import Formula, load_formula
 from labelcalc.intake.library import Library, load_library
-from labelcalc.labelling.declare import Declaration, declare
+from labelcalc.labelling.declare import declare
+from labelcalc.labelling.record import Declaration
 from labelcalc.labelling.rulepack import RulePack, get_packs, load_packs
 
 __all__ = [

@@ -21,8 +21,9 @@ from labelcalc.formulation.composition import compose
 from labelcalc.formulation.energy import energy_by_line, energy_of, load_factor_set, rules_dir
 from labelcalc.intake.formula import load_formula
 from labelcalc.intake.library import load_library
-from labelcalc.labelling.declare import declaration_dict, declare
+from labelcalc.labelling.declare import declare
 from labelcalc.labelling.rulepack import get_packs, load_pack_file, load_packs
+from labelcalc.outputs.jsondoc import declaration_dict
 from labelcalc.outputs.textreport import compose_text, declare_text
 
 app = typer.Typer(
@@ -233,7 +234,7 @@ def assess_cmd(
     as_json: bool = JsonOpt,
 ):
     """Claims, required statements, allergens, ingredient list and front-of-pack verdicts, each with its figures and citation."""
-    from labelcalc.outputs.assess_json import assessment_dict
+    from labelcalc.outputs.jsondoc import assessment_dict
     from labelcalc.outputs.textreport import assess_text
 
     lib, f = _load(formula, library)
@@ -538,7 +539,7 @@ def target_cmd(
     prices: Path | None = PricesOpt,
 ):
     """The smallest replacement level that makes a claim eligible, with the resulting declaration and cost."""
-    from labelcalc.labelling.assess import claim_key
+    from labelcalc.labelling.engine import claim_key
     from labelcalc.whatif.explore import find_target
 
     lib = _library(formula, library)

@@ -24,8 +24,9 @@ import pytest
 from labelcalc.formulation.composition import compose
 from labelcalc.intake.formula import load_formula
 from labelcalc.intake.library import load_library
-from labelcalc.labelling.assess import CANNOT_TELL, ELIGIBLE, NOT_ELIGIBLE, assess
+from labelcalc.labelling.assess import assess
 from labelcalc.labelling.declare import declare
+from labelcalc.labelling.record import CANNOT_TELL, ELIGIBLE, NOT_ELIGIBLE
 from labelcalc.labelling.rulepack import load_pack_file
 
 ROOT = Path(__file__).resolve().parent.parent

@@ -9,8 +9,9 @@ import pytest
 from labelcalc.errors import InputError
 from labelcalc.formulation.composition import compose
 from labelcalc.intake.formula import load_formula
-from labelcalc.labelling.declare import declaration_dict, declare
+from labelcalc.labelling.declare import declare
 from labelcalc.labelling.rulepack import load_pack_file
+from labelcalc.outputs.jsondoc import declaration_dict
 
 ROOT = Path(__file__).resolve().parent.parent
 PACK = load_pack_file(ROOT / "tests" / "data" / "engine_test_pack.yaml", ROOT / "labelcalc" / "rules")

@@ -133,6 +133,22 @@ class Composition:
         keys = C.DERIVED.get(key, (key,))
         return [ing.id for ing in self.formula.ingredients_used() if any(k not in ing.values for k in keys)]
 
+    def finished_grams_of(self, f: Formula) -> float:
+        """Finished mass [g] of a batch of ``f`` (this product or one of its sub-formulas) in this scenario."""
+        return self._table.finished[_fkey(f)]["low" if self.scenario == "nominal" else self.scenario]
+
+    def steps_of(self, f: Formula) -> list[StepResult]:
+        """Results of the processing steps of ``f`` (this product or one of its sub-formulas), per batch of ``f``."""
+        if f is self.formula:
+            return self.steps
+        return self._table.step_results.get(_fkey(f), {}).get(
+            "low" if self.scenario == "nominal" else self.scenario, []
+        )
+
+    def oil_taken_up(self, f: Formula) -> list[float]:
+        """Oil taken up [g] in each processing step of ``f``, per batch of ``f``."""
+        return _steps_of(f, self.scenario, self._table)
+
     def leaf_amounts(self) -> dict[str, float]:
         """Grams of each library ingredient used per 100 g of finished product
         (as used, before processing), through sub-formulas and frying oils."""
@@ -181,8 +197,8 @@ class CompositionTable:
         self.n = len(library.ids)
         #: finished mass [g] of each composed sub-formula and product, per scenario
         self.finished: dict[str, dict[str, float]] = {}
-        #: oil taken up [g] in each processing step of each formula, per scenario
-        self.oil_taken: dict[str, dict[str, list[float]]] = {}
+        #: the processing steps' results of each composed formula and sub-formula, per scenario
+        self.step_results: dict[str, dict[str, list[StepResult]]] = {}
 
     def add(self, key: str, lo: np.ndarray, hi: np.ndarray) -> None:
         self._rows["low"].append(lo)
@@ -236,7 +252,8 @@ def _leaf_amounts(f: Formula, scenario: str, table: CompositionTable, finished: 
 
 def _steps_of(f: Formula, scenario: str, table: CompositionTable) -> list[float]:
     s = "low" if scenario == "nominal" else scenario
-    return table.oil_taken.get(_fkey(f), {}).get(s, [0.0] * len(f.steps))
+    got = table.step_results.get(_fkey(f), {}).get(s)
+    return [st.oil_taken_up_g for st in got] if got else [0.0] * len(f.steps)
 
 
 def _fkey(f: Formula) -> str:
@@ -297,9 +314,7 @@ def compose_many(
                 failed[_fkey(f)] = res
                 continue
             done[_fkey(f)] = res
-            table.oil_taken[_fkey(f)] = {
-                sc: [st.oil_taken_up_g for st in res[2][i][3]] for i, sc in enumerate(SCENARIOS)
-            }
+            table.step_results[_fkey(f)] = {sc: res[2][i][3] for i, sc in enumerate(SCENARIOS)}
         for f in ok:
             k = _fkey(f)
             if k in done and k not in table.columns:

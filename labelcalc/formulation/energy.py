@@ -205,7 +205,8 @@ class EnergyResult:
         return (None if self.kj is None else self.kj * f, None if self.kcal is None else self.kcal * f)
 
 
-def _energy_vectors(fs: FactorSet):
+def energy_vectors(fs: FactorSet) -> tuple[np.ndarray, np.ndarray]:
+    """kJ and kcal factors over :data:`COLUMNS` (own lipid factors and the law's conversions applied)."""
     kj, kcal, own = fs.vectors()
     h = fs.factor_set
     if own:
@@ -226,7 +227,7 @@ def _prepare(fs: FactorSet):
     key = id(fs)
     if key in _PREPARED and _PREPARED[key][0] is fs:
         return _PREPARED[key][1]
-    kj_v, kcal_v = _energy_vectors(fs)
+    kj_v, kcal_v = energy_vectors(fs)
     groups = list(ENERGY_GROUPS)
     gkj = np.zeros((len(groups), len(COLUMNS)))
     gkcal = np.zeros_like(gkj)
@@ -260,49 +261,94 @@ def _prepare(fs: FactorSet):
     return prepared
 
 
-def energy_of(comp: Composition, fs: FactorSet) -> EnergyResult:
-    """Energy per 100 g of ``comp`` with factor set ``fs`` (cached on the composition).
+@dataclass
+class EnergyTable:
+    """Energy of many compositions under one factor set, per 100 g (rows = compositions).
 
-    With ``ingredient_specific`` (21 CFR 101.9(c)(1)(i)(A)) the protein, fat
-    and carbohydrate terms come from each ingredient's own Atwater factors
-    where the library gives them, general factors elsewhere.
+    ``kj``/``kcal`` are NaN where unknown; ``group_kj``/``group_kcal`` hold each energy group's share
+    (rows x groups) and ``group_unknown`` which groups depend on an unknown value.
     """
+
+    factor_set: FactorSet
+    groups: list[str]
+    kj: np.ndarray
+    kcal: np.ndarray
+    group_kj: np.ndarray
+    group_kcal: np.ndarray
+    group_unknown: np.ndarray
+    specific_kcal: np.ndarray | None  # ingredient-specific Atwater energy (US method A), else None
+    specific_unknown: np.ndarray | None
+    review_hits: list[tuple[str, np.ndarray]]  # (review text, rows it applies to)
+
+    def reviews(self, i: int) -> list[str]:
+        return [text for text, hit in self.review_hits if hit[i]]
+
+    def result(self, i: int) -> EnergyResult:
+        """The energy of row ``i`` as an :class:`EnergyResult`."""
+        gu = self.group_unknown[i]
+        by_kj = {g: (None if u else float(x)) for g, x, u in zip(self.groups, self.group_kj[i], gu)}
+        by_kcal = {g: (None if u else float(x)) for g, x, u in zip(self.groups, self.group_kcal[i], gu)}
+        unknown_because = [g for g, u in zip(self.groups, gu) if u]
+        if self.specific_kcal is not None and self.specific_unknown is not None:
+            if self.specific_unknown[i]:
+                by_kcal["specific_atwater"] = by_kj["specific_atwater"] = None
+                unknown_because.append("specific Atwater factors")
+            else:
+                sk = float(self.specific_kcal[i])
+                by_kcal["specific_atwater"] = sk
+                k = self.factor_set.factor_set.kj_from_kcal
+                by_kj["specific_atwater"] = sk * k if k else None
+        kj = None if unknown_because or any(v is None for v in by_kj.values()) else float(sum(by_kj.values()))
+        kcal = None if unknown_because else float(sum(v for v in by_kcal.values() if v is not None))
+        # texts deduplicated in factor order, as a reader expects one line per distinct note
+        reviews = list(dict.fromkeys(self.reviews(i)))
+        return EnergyResult(self.factor_set, kj, kcal, by_kj, by_kcal, unknown_because, reviews)
+
+
+def energy_table(values: np.ndarray, unknown: np.ndarray, fs: FactorSet) -> EnergyTable:
+    """Energy of every row of ``values`` (rows x :data:`COLUMNS`, per 100 g; NaN where ``unknown``).
+
+    With ``ingredient_specific`` (21 CFR 101.9(c)(1)(i)(A)) the protein, fat and carbohydrate terms come
+    from each ingredient's own Atwater factors where the library gives them, general factors elsewhere.
+    This is the one energy computation: :func:`energy_of` is its single-composition form.
+    """
+    groups, gkj, gkcal, relevant, review_cols = _prepare(fs)
+    vals = np.nan_to_num(np.atleast_2d(values))
+    unk = np.atleast_2d(unknown)
+    specific = fs.factor_set.ingredient_specific
+    if specific:  # general factors apply only to what specific factors do not cover
+        vals = vals.copy()
+        for k in ATWATER_REPLACED:
+            vals[:, COL[k]] -= vals[:, COL[f"atwater_covered_{k}"]]
+    g_kj, g_kcal = vals @ gkj.T, vals @ gkcal.T
+    g_unknown = (unk[:, None, :] & relevant[None, :, :]).any(axis=2)
+    any_unknown = g_unknown.any(axis=1)
+    kj = np.where(any_unknown, np.nan, g_kj.sum(axis=1))
+    kcal = np.where(any_unknown, np.nan, g_kcal.sum(axis=1))
+    spec = spec_unk = None
+    if specific:
+        c = COL["specific_atwater_kcal"]
+        spec, spec_unk = vals[:, c], unk[:, c]
+        kcal = np.where(spec_unk, np.nan, kcal + spec)
+        k = fs.factor_set.kj_from_kcal
+        kj = np.where(spec_unk, np.nan, kj + spec * k) if k else np.full(len(vals), np.nan)
+    hits = [(text, vals[:, cols].sum(axis=1) > 0) for cols, text in review_cols]
+    return EnergyTable(fs, list(groups), kj, kcal, g_kj, g_kcal, g_unknown, spec, spec_unk, hits)
+
+
+def energy_of(comp: Composition, fs: FactorSet) -> EnergyResult:
+    """Energy per 100 g of ``comp`` with factor set ``fs`` (cached on the composition)."""
     cache = comp.__dict__.setdefault("_energy_cache", {})
     if fs.id in cache and cache[fs.id].factor_set is fs:
         return cache[fs.id]
-    groups, gkj, gkcal, relevant, review_cols = _prepare(fs)
-    vals = np.nan_to_num(comp.per_100g)
-    unk = comp.unknown
-    specific = fs.factor_set.ingredient_specific
-    if specific:  # general factors apply only to what specific factors do not cover
-        for k in ATWATER_REPLACED:
-            vals[COL[k]] -= vals[COL[f"atwater_covered_{k}"]]
-    e_kj, e_kcal = gkj @ vals, gkcal @ vals
-    g_unknown = (relevant & unk[None, :]).any(axis=1)
-    by_kj = {g: (None if u else float(x)) for g, x, u in zip(groups, e_kj, g_unknown)}
-    by_kcal = {g: (None if u else float(x)) for g, x, u in zip(groups, e_kcal, g_unknown)}
-    unknown_because = [g for g, u in zip(groups, g_unknown) if u]
-    if specific:
-        c = COL["specific_atwater_kcal"]
-        if unk[c]:
-            by_kcal["specific_atwater"] = by_kj["specific_atwater"] = None
-            unknown_because.append("specific Atwater factors")
-        else:
-            by_kcal["specific_atwater"] = float(vals[c])
-            by_kj["specific_atwater"] = (
-                float(vals[c]) * fs.factor_set.kj_from_kcal if fs.factor_set.kj_from_kcal else None
-            )
-    kj = None if unknown_because or any(v is None for v in by_kj.values()) else float(sum(by_kj.values()))
-    kcal = None if unknown_because else float(sum(v for v in by_kcal.values() if v is not None))
-    reviews = [text for cols, text in review_cols if vals[cols].sum() > 0]
-    res = EnergyResult(fs, kj, kcal, by_kj, by_kcal, unknown_because, reviews)
+    res = energy_table(comp.per_100g[None, :], comp.unknown[None, :], fs).result(0)
     cache[fs.id] = res
     return res
 
 
 def energy_by_line(comp: Composition, fs: FactorSet) -> list[tuple[str, float | None, float | None]]:
     """Energy contributed by each batch line and processing step [kJ, kcal per 100 g]."""
-    kj_v, kcal_v = _energy_vectors(fs)
+    kj_v, kcal_v = energy_vectors(fs)
     labels, rows = comp.contributions
     if fs.factor_set.ingredient_specific:
         rows = rows.copy()

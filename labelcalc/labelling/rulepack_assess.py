@@ -109,6 +109,9 @@ class StatementTrigger(Strict):
     present: bool | None = Field(None, description="true: any amount above zero")
     with_claim: bool | None = Field(None, description="only when a claim is made (or eligible)")
     conditions: list[Condition] = Field(default_factory=list, description="with with_claim: any of these conditions")
+    all_of: list[StatementTrigger] | None = Field(
+        None, description="holds when every one of these triggers holds (the statement's own list is any-of)"
+    )
 
 
 class Compensation(Strict):

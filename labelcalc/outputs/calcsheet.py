@@ -15,7 +15,7 @@ from labelcalc.files import atomic_write
 from labelcalc.formulation import components as C
 from labelcalc.formulation.composition import COL
 from labelcalc.formulation.energy import energy_by_line
-from labelcalc.labelling.assess import Assessment
+from labelcalc.labelling.record import Assessment
 from labelcalc.labelling.rounding import format_number, to_decimal
 
 

@@ -24,10 +24,10 @@ from reportlab.pdfbase.ttfonts import TTFont
 from reportlab.platypus import Flowable, PageBreak, Paragraph, SimpleDocTemplate, Spacer, Table, TableStyle
 
 from labelcalc import __version__
-from labelcalc.labelling.assess import ELIGIBLE, Assessment, allergen_name
-from labelcalc.labelling.declare import BASIS_LABEL, Declaration
+from labelcalc.labelling.checks import Check
+from labelcalc.labelling.ingredients import allergen_name
+from labelcalc.labelling.record import BASIS_LABEL, ELIGIBLE, Assessment, Declaration
 from labelcalc.outputs.calcsheet import calculation_rows
-from labelcalc.outputs.preflight import Check
 
 CAUTION = "DRAFT — verify against current local regulation and a qualified regulatory professional before use."
 _FONTS_READY = False

@@ -12,10 +12,10 @@ from labelcalc.formulation.composition import compose
 from labelcalc.intake.formula import FormulaIndex, load_formula
 from labelcalc.intake.library import Library, load_library
 from labelcalc.labelling.assess import assess_against
+from labelcalc.labelling.checks import run_checks
 from labelcalc.labelling.rulepack import RulePack, get_packs
 from labelcalc.outputs.calcsheet import write_calculation_csv
 from labelcalc.outputs.panelpdf import write_panel_pdf
-from labelcalc.outputs.preflight import run_checks
 
 
 def panels_for(

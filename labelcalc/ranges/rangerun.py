@@ -20,9 +20,9 @@ from labelcalc.formulation.composition import compose_many
 from labelcalc.intake.formula import Formula, FormulaIndex, build_formula, load_formula
 from labelcalc.intake.library import Library, load_library
 from labelcalc.intake.sources import index_for, sheet_products
-from labelcalc.labelling.assess import ELIGIBLE
-from labelcalc.labelling.batch import BatchLabels
+from labelcalc.labelling.engine import LabelEngine
 from labelcalc.labelling.rulepack import RulePack, get_packs
+from labelcalc.ranges.summary import label_summary
 
 
 @dataclass
@@ -146,12 +146,13 @@ def run_chunk(
     labelled = [c for f in formulas if f.id in comps for c in comps[f.id]]
     failed_ids: set[str] = set()
     for p in packs:
-        batch = BatchLabels(p, labelled)
-        for c, exc in batch.errors:
+        eng = LabelEngine(p, labelled)
+        for c, exc in eng.errors:
             if (c.formula.id, p.market) not in failed_ids:
                 res.errors += _error_row(c.formula.id, exc, p.market)
             failed_ids.add((c.formula.id, p.market))
-        for c, row, declared, statements, allergens, claims in batch.results():
+        for i, c in enumerate(eng.comps):
+            row, declared, statements, allergens, claims = label_summary(eng, i)
             f = c.formula
             res.rows.append(row)
             if with_labels:
@@ -178,68 +179,6 @@ def run_chunk(
             else:
                 res.products_ok += 1
     return res
-
-
-def summary_row(f: Formula, d, a) -> dict:
-    """The summary row of one label from declare/assess (range runs build it in batch.py; tests/test_batch.py
-    holds the two equal)."""
-    main = d.columns[0]
-    e, av = d.declared_energy, d.available_energy
-    s = d.serving_g
-    row = {
-        "product_id": f.id,
-        "product_name": f.header.name,
-        "file": f.file,
-        "market": d.market,
-        "scenario": d.composition.scenario,
-        "formula_hash": f.content_hash,
-        "column": main,
-        "serving_g": s,
-        "declared_energy_kcal_per_100g": e.kcal,
-        "declared_energy_kj_per_100g": e.kj,
-        "declared_energy_kcal_per_serving": None if e.kcal is None or s is None else e.kcal * s / 100,
-        "available_energy_kcal_per_100g": av.kcal,
-        "available_energy_kcal_per_serving": None if av.kcal is None or s is None else av.kcal * s / 100,
-    }
-    for r in d.shown_rows:
-        row[f"{r.nutrient}"] = r.text(main) if not r.amount_in_label else r.label_for(main)
-        pct = r.percent.get(d.pack.panel.percent_basis or main)
-        if pct:
-            row[f"{r.nutrient}_percent"] = pct
-    row["claims_eligible"] = "; ".join(c.claim for c in a.claims if c.verdict == ELIGIBLE)
-    row["statements_required"] = "; ".join(s_.statement for s_ in a.statements)
-    row["allergens"] = "; ".join(a.allergens.get("declared", []))
-    row["allergens_unknown"] = "; ".join(a.allergens.get("unknown_ingredients", []))
-    row["front_of_pack"] = "; ".join(
-        f"{fo['scheme']}: "
-        + ", ".join(f"{k}={v.get('colour', v.get('high_in'))}" for k, v in fo.get("verdicts", {}).items())
-        for fo in a.front_of_pack
-    )
-    row["reviews"] = len(d.reviews) + len(a.reviews)
-    return row
-
-
-def label_record(f: Formula, d, a, ing_hashes, rhash) -> LabelRecord:
-    """The register record of one label from declare/assess (the batch path's counterpart, see summary_row)."""
-    declared = {}
-    for r in d.shown_rows:
-        for b in d.columns:
-            declared[f"{r.nutrient}|{b}"] = r.text(b)
-            if r.percent.get(b):
-                declared[f"{r.nutrient}|{b}|%"] = r.percent[b]
-    return LabelRecord(
-        f.id,
-        d.market,
-        d.composition.scenario,
-        f.content_hash,
-        ing_hashes,
-        rhash,
-        declared,
-        sorted(s.statement for s in a.statements),
-        sorted(a.allergens.get("declared", [])),
-        sorted(c.claim for c in a.claims if c.verdict == ELIGIBLE),
-        f.file,
-    )
 
 
 _WORKER_STATE: dict = {}

@@ -18,7 +18,8 @@ from labelcalc.formulation.composition import compose
 from labelcalc.intake.formula import Formula, Header, Line, map_tree
 from labelcalc.intake.library import Library
 from labelcalc.intake.quantities import Quantity
-from labelcalc.labelling.assess import ELIGIBLE, assess_against
+from labelcalc.labelling.assess import assess_against
+from labelcalc.labelling.record import ELIGIBLE
 from labelcalc.labelling.rulepack import RulePack
 from labelcalc.whatif.costing import cost_of
 

@@ -1,10 +1,9 @@
-"""Pre-flight consistency checks run on every panel before it is written.
+"""Consistency checks of a label record, run before any panel is written (the record's ``checks``).
 
 * the declared energy agrees with energy recomputed from the declared
   macronutrients, within what rounding allows;
 * no sub-row exceeds its parent (sugars within carbohydrate, saturates within fat);
 * printed kJ and kcal each agree with the market's factors;
-* every claim listed is re-tested on the same unrounded figures;
 * the panel carries the formula's content hash.
 """
 
@@ -15,9 +14,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from labelcalc.formulation.composition import COL
-from labelcalc.formulation.energy import _energy_vectors
-from labelcalc.labelling.assess import ELIGIBLE, Assessment, _Context, evaluate_claim
-from labelcalc.labelling.declare import Declaration
+from labelcalc.formulation.energy import energy_vectors
+from labelcalc.labelling.record import Assessment, Declaration
 
 
 @dataclass
@@ -47,7 +45,7 @@ def _energy_check(decl: Declaration, basis: str) -> list[Check]:
     out = []
     pack = decl.pack
     comp = decl.composition
-    kj_v, kcal_v = _energy_vectors(decl.declared_energy.factor_set)
+    kj_v, kcal_v = energy_vectors(decl.declared_energy.factor_set)
     vals = np.nan_to_num(comp.per_100g)
     energy_rows = {pack.nutrients[r.nutrient].energy: r for r in decl.shown_rows if pack.nutrients[r.nutrient].energy}
     top = [r for r in decl.shown_rows if r.indent == 0 and not pack.nutrients[r.nutrient].energy and r.unit == "g"]
@@ -135,32 +133,12 @@ def _subrow_checks(decl: Declaration, basis: str) -> list[Check]:
     return out
 
 
-def _claim_checks(a: Assessment) -> list[Check]:
-    d = a.declaration
-    ctx = _Context(d.composition, d.pack, d)
-    out = []
-    by_id = {c.id: c for c in d.pack.claims}
-    for v in a.claims:
-        if v.verdict != ELIGIBLE or v.claim not in by_id:
-            continue
-        again = evaluate_claim(by_id[v.claim], ctx, None) if by_id[v.claim].kind != "comparative" else v
-        out.append(
-            Check(
-                f"claim '{v.label}' re-tested",
-                again.verdict == v.verdict,
-                f"{again.verdict} on the unrounded figures the panel is drawn from",
-            )
-        )
-    return out
-
-
 def run_checks(a: Assessment) -> list[Check]:
     d = a.declaration
     checks: list[Check] = []
     for basis in d.columns:
         checks += _energy_check(d, basis)
         checks += _subrow_checks(d, basis)
-    checks += _claim_checks(a)
     h = d.composition.formula.content_hash
     checks.append(Check("formula content hash", bool(h), f"panel drawn from formula hash {h}"))
     return checks
