@@ -1,7 +1,7 @@
-"""The calculation sheet: how every declared figure was reached.
+"""The calculation sheet: how every declared figure was reached, down to the leaf ingredients.
 
-Rows come from the same declaration and assessment the panel is drawn from,
-so the sheet, the JSON output and the register can never disagree.
+Rows come from the label record's trace (:mod:`labelcalc.labelling.trace`): the same record the
+panel is drawn from, so the sheet, the JSON output and the register can never disagree.
 """
 
 from __future__ import annotations
@@ -9,116 +9,107 @@ from __future__ import annotations
 import csv
 from pathlib import Path
 
-import numpy as np
-
 from labelcalc.files import atomic_write
-from labelcalc.formulation import components as C
-from labelcalc.formulation.composition import COL
-from labelcalc.formulation.energy import energy_by_line
 from labelcalc.labelling.record import Assessment
 from labelcalc.labelling.rounding import format_number, to_decimal
 
-
-def _band_text(rule_key: str, rule, band_index: int) -> str:
-    b = rule.bands[band_index]
-    rng = f"below {b.below:g}" if b.below is not None else f"up to {b.up_to:g}" if b.up_to is not None else "above"
-    act = (
-        f"nearest {b.step:g}"
-        if b.step
-        else f"{b.significant_figures} significant figures"
-        if b.significant_figures
-        else f"'{b.declare}'"
-    )
-    return f"{rule_key}: {rng} → {act} ({rule.tie.replace('_', ' ')})"
+COLUMNS = [
+    "scenario",
+    "kind",
+    "nutrient",
+    "label",
+    "column",
+    "unrounded",
+    "unit",
+    "rounding",
+    "declared",
+    "percent",
+    "line_kind",
+    "route",
+    "ingredient",
+    "grams_per_100g",
+    "amount",
+    "source",
+]
 
 
 def _num(v) -> str:
     return "unknown" if v is None else format_number(to_decimal(round(v, 4)))
 
 
+def _record(a: Assessment):
+    rec = a.declaration.record
+    if rec is None:
+        raise ValueError("the assessment carries no label record")
+    return rec
+
+
 def calculation_rows(a: Assessment) -> list[dict]:
-    d = a.declaration
-    pack = d.pack
-    comp = d.composition
+    """The sheet's rows: one "figure" row per shown row and column, one "line" row per leaf ingredient or
+    processing effect that contributes to it, one "unknown" row per unknown input."""
+    trace = _record(a).trace
     out: list[dict] = []
-    rules = {r.nutrient: r for r in pack.rows}
-    for r in d.shown_rows:
-        prow = rules[r.nutrient]
-        rule = pack.rounding[prow.rounding]
-        for b in d.columns:
-            dec = r.declared.get(b)
-            pct = ""
-            if prow.percent:
-                ref = pack.reference_values[prow.percent]
-                raw = r.percent_unrounded.get(b)
-                pct = f"{ref.amount:g} {ref.unit}: {'' if raw is None else f'{raw:.2f} % → '}{r.percent.get(b) or '-'}"
+    for r in trace["rows"]:
+        for b, col in r["columns"].items():
+            pct = col.get("percent")
+            pct_text = ""
+            if pct:
+                raw = pct["unrounded"]
+                pct_text = (
+                    f"of {pct['reference_value']:g} {pct['unit']}: "
+                    + ("" if raw is None else f"{raw:.2f} %, declared ")
+                    + (pct["declared"] or "-")
+                )
             out.append(
                 {
                     "kind": "figure",
-                    "nutrient": r.nutrient,
-                    "label": r.label_for(b),
+                    "nutrient": r["nutrient"],
+                    "label": r["label"],
                     "column": b.replace("_", " "),
-                    "unrounded": _num(r.unrounded.get(b)),
-                    "unit": r.unit,
-                    "rounding": "unknown input" if dec is None else _band_text(prow.rounding, rule, dec.band),
-                    "declared": r.text(b),
-                    "percent": pct,
-                    "source": "; ".join(r.source),
+                    "unrounded": _num(col["unrounded"]),
+                    "unit": r["unit"],
+                    "rounding": "unknown input" if col["rounding"] is None else col["rounding"],
+                    "declared": col["declared"],
+                    "percent": pct_text,
+                    "source": "; ".join(r["citations"]),
                 }
             )
-    labels, rows = comp.contributions
-    for r in d.shown_rows:
-        nd = pack.nutrients[r.nutrient]
-        if nd.energy:
-            for lab, kj, kcal in energy_by_line(comp, d.declared_energy.factor_set):
-                v = kcal if nd.energy == "kcal" else kj
-                out.append({"kind": "contribution", "line": lab, "label": r.label, "value": _num(v) + f" {nd.unit}"})
-            continue
-        for lab, row in zip(labels, rows):
-            total = 0.0
-            unknown = False
-            for key, factor in (nd.sum or {}).items():
-                for k in C.DERIVED.get(key, (key,)):
-                    x = row[COL[k]]
-                    if np.isnan(x):
-                        unknown = True
-                    else:
-                        total += x * factor
+    for r in trace["rows"]:
+        for ln in r["lines"]:
+            if ln["amount"] == 0:
+                continue
             out.append(
                 {
-                    "kind": "contribution",
-                    "line": lab,
-                    "label": r.label,
-                    "value": "unknown" if unknown else _num(total) + f" {nd.unit}",
+                    "kind": "line",
+                    "nutrient": r["nutrient"],
+                    "label": r["label"],
+                    "line_kind": ln["kind"],
+                    "route": ln["route"],
+                    "ingredient": ln["ingredient"],
+                    "grams_per_100g": _num(ln["grams_per_100g"]),
+                    "amount": _num(ln["amount"]),
+                    "unit": ln["unit"],
+                    "source": "; ".join(sorted(set(ln["sources"].values()))),
                 }
             )
-    for r in d.rows:
-        if r.unknown_inputs:
-            out.append({"kind": "unknown", "label": r.label, "value": ", ".join(r.unknown_inputs)})
+        if r["unknown_inputs"]:
+            out.append(
+                {
+                    "kind": "unknown",
+                    "nutrient": r["nutrient"],
+                    "label": r["label"],
+                    "source": ", ".join(r["unknown_inputs"]),
+                }
+            )
     return out
 
 
 def write_calculation_csv(items: list[Assessment], path: Path) -> Path:
-
-    cols = [
-        "scenario",
-        "kind",
-        "nutrient",
-        "label",
-        "column",
-        "line",
-        "unrounded",
-        "unit",
-        "rounding",
-        "declared",
-        "percent",
-        "value",
-        "source",
-    ]
+    """The calculation sheet of every scenario of one product and market, as CSV."""
 
     def w(tmp: Path):
         with tmp.open("w", newline="", encoding="utf-8") as fh:
-            wr = csv.DictWriter(fh, fieldnames=cols, extrasaction="ignore")
+            wr = csv.DictWriter(fh, fieldnames=COLUMNS, extrasaction="ignore")
             wr.writeheader()
             for a in items:
                 for row in calculation_rows(a):

@@ -453,7 +453,9 @@ def calculation_story(a: Assessment, st) -> list:
         Paragraph(
             _esc(
                 "Every declared figure: unrounded value, the rounding step and rule applied, the reference value "
-                "and percentage, and each batch line's contribution. Unknown inputs are listed."
+                "and percentage, and what each leaf ingredient and processing step (water lost, oil taken up) "
+                "contributes, through every sub-formula, with the source of each ingredient value. "
+                "Unknown inputs are listed."
             ),
             st["small"],
         ),
@@ -467,20 +469,26 @@ def calculation_story(a: Assessment, st) -> list:
         if r["kind"] == "figure"
     ]
     story.append(_table(head + body, st, [26 * mm, 17 * mm, 17 * mm, 30 * mm, 17 * mm, 22 * mm, 51 * mm]))
-    story.append(Paragraph("Contributions per 100 g of finished product, by batch line and processing step", st["h2"]))
-    contrib = [r for r in rows if r["kind"] == "contribution"]
-    lines = sorted({r["line"] for r in contrib}, key=[r["line"] for r in contrib].index)
-    nutrients = list(dict.fromkeys(r["label"] for r in contrib))
-    table = [["batch line / step"] + nutrients]
-    for ln in lines:
-        table.append(
-            [ln] + [next((r["value"] for r in contrib if r["line"] == ln and r["label"] == n), "") for n in nutrients]
+    lines = [r for r in rows if r["kind"] == "line"]
+    for label in dict.fromkeys(r["label"] for r in lines):
+        mine = [r for r in lines if r["label"] == label]
+        story.append(
+            Paragraph(
+                _esc(f"{label}: where it comes from, per 100 g of finished product ({mine[0]['unit']})"), st["h2"]
+            )
         )
-    n = len(nutrients)
-    for start in range(0, n, 6):
-        sub = [[row[0]] + row[1 + start : 1 + start + 6] for row in table]
-        story.append(_table(sub, st, [48 * mm] + [21 * mm] * (len(sub[0]) - 1)))
-        story.append(Spacer(1, 2 * mm))
+        table = [["ingredient or step", "through", "g used", "amount", "value source"]]
+        table += [
+            [
+                r["ingredient"] if r["line_kind"] == "ingredient" else f"{r['line_kind']}: {r['ingredient']}",
+                r["route"] or "the formula",
+                r["grams_per_100g"],
+                r["amount"],
+                r["source"],
+            ]
+            for r in mine
+        ]
+        story.append(_table(table, st, [38 * mm, 42 * mm, 15 * mm, 15 * mm, 70 * mm]))
     e = d.declared_energy
     story.append(Paragraph("Energy factors used", st["h2"]))
     erows = [["component", "kJ/g", "kcal/g", "source"]]
@@ -496,7 +504,7 @@ def calculation_story(a: Assessment, st) -> list:
     story.append(_table(erows, st, [50 * mm, 14 * mm, 14 * mm, 102 * mm]))
     unknown = [r for r in rows if r["kind"] == "unknown"]
     story.append(Paragraph("Unknown inputs", st["h2"]))
-    story.append(Paragraph(_esc("; ".join(f"{r['label']}: {r['value']}" for r in unknown) or "none"), st["base"]))
+    story.append(Paragraph(_esc("; ".join(f"{r['label']}: {r['source']}" for r in unknown) or "none"), st["base"]))
     return story
 
 
