@@ -183,6 +183,9 @@ def declare_cmd(
     library: Path | None = LibraryOpt,
     rules: Path | None = RulesOpt,
     as_json: bool = JsonOpt,
+    trace: bool = typer.Option(
+        False, "--trace", help="With --json: add each shown figure's trace down to the leaf ingredients."
+    ),
 ):
     """Each market's declared values: rows, rounding, reference values, columns."""
     lib, f = _load(formula, library)
@@ -192,7 +195,7 @@ def declare_cmd(
     if as_json:
         doc = {
             "product": {"id": f.id, "name": f.header.name, "version": f.header.version, "content_hash": f.content_hash},
-            "declarations": [declaration_dict(d) for d in decls],
+            "declarations": [declaration_dict(d, trace=trace) for d in decls],
         }
         typer.echo(json.dumps(doc, indent=2, ensure_ascii=False, default=str))
     else:

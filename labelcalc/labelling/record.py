@@ -165,6 +165,13 @@ class LabelRecord:
         return assessment_of(self)
 
     @cached_property
+    def checks(self) -> list:
+        """The consistency checks every panel passes before it is written (:mod:`checks`)."""
+        from labelcalc.labelling.checks import run_checks
+
+        return run_checks(self.assessment)
+
+    @cached_property
     def trace(self) -> dict:
         """How every shown figure was reached, down to the leaf ingredients (built on first use)."""
         from labelcalc.labelling.trace import trace_of

@@ -10,8 +10,9 @@ from dataclasses import asdict
 from labelcalc.labelling.record import Assessment, Declaration
 
 
-def declaration_dict(d: Declaration) -> dict:
-    """The documented JSON form of a declaration (see README, "JSON output")."""
+def declaration_dict(d: Declaration, *, trace: bool = False) -> dict:
+    """The documented JSON form of a declaration (see README, "JSON output"); ``trace`` adds the record's
+    trace of every shown figure to its leaf ingredients."""
     pb = d.pack.panel.percent_basis
     rows = []
     for r in d.rows:
@@ -37,7 +38,7 @@ def declaration_dict(d: Declaration) -> dict:
                 "source": "; ".join(r.source),
             }
         )
-    return {
+    doc = {
         "market": d.market,
         "pack_version": d.pack.pack.version,
         "panel_title": d.pack.panel.title,
@@ -65,6 +66,9 @@ def declaration_dict(d: Declaration) -> dict:
         "reviews": d.reviews,
         "draft_notice": d.pack.pack.draft_notice,
     }
+    if trace and d.record is not None:
+        doc["trace"] = d.record.trace
+    return doc
 
 
 def assessment_dict(a: Assessment) -> dict:
