@@ -144,7 +144,7 @@ def trace_of(rec: LabelRecord) -> dict:
         }
         for b in d.columns:
             dec = r.declared.get(b)
-            col = {
+            col: dict = {
                 "unrounded": r.unrounded.get(b),
                 "declared": r.text(b),
                 "rounding": None if dec is None else band_text(rule, dec.band),
