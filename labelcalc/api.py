@@ -17,7 +17,7 @@ from labelcalc.formulation.energy import EnergyResult, energy_of, load_factor_se
 from labelcalc.intake.formula import Formula, load_formula
 from labelcalc.intake.library import Library, load_library
 from labelcalc.labelling.declare import declare
-from labelcalc.labelling.record import Declaration
+from labelcalc.labelling.model import Declaration
 from labelcalc.labelling.rulepack import RulePack, get_packs, load_packs
 
 __all__ = [

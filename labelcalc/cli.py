@@ -85,7 +85,7 @@ def _energy_sets() -> list[str]:
 
 def compose_document(formula, comps) -> dict:
     """The documented JSON form of ``labelcalc compose`` (see README)."""
-    from labelcalc.formulation import components as C
+    from labelcalc import components as C
 
     sets = [load_factor_set(i) for i in _energy_sets()]
     serving = formula.serving_grams()

@@ -3,7 +3,7 @@
 import periodictable as pt
 import pytest
 
-from labelcalc.formulation.components import SALT_PER_SODIUM
+from labelcalc.components import SALT_PER_SODIUM
 
 
 def test_salt_factor_close_to_molar_ratio():

@@ -15,7 +15,7 @@ from __future__ import annotations
 import pytest
 from claimkit import Lab, claim, one, statement, verdict  # noqa: F401
 
-from labelcalc.labelling.record import CANNOT_TELL, ELIGIBLE, NOT_ELIGIBLE
+from labelcalc.labelling.model import CANNOT_TELL, ELIGIBLE, NOT_ELIGIBLE
 from labelcalc.labelling.rulepack import load_packs
 
 PACK = load_packs()["anz"]

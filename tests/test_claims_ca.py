@@ -23,7 +23,7 @@ from claimkit import Lab, claim, one, statement, verdict  # noqa: F401
 
 from labelcalc.intake.formula import load_formula
 from labelcalc.intake.library import load_library
-from labelcalc.labelling.record import CANNOT_TELL, ELIGIBLE, NOT_ELIGIBLE
+from labelcalc.labelling.model import CANNOT_TELL, ELIGIBLE, NOT_ELIGIBLE
 from labelcalc.labelling.rulepack import load_packs
 
 CA = load_packs()["ca"]

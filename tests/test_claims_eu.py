@@ -26,7 +26,7 @@ from labelcalc.intake.formula import load_formula
 from labelcalc.intake.library import load_library
 from labelcalc.labelling.assess import assess
 from labelcalc.labelling.declare import declare
-from labelcalc.labelling.record import CANNOT_TELL, ELIGIBLE, NOT_ELIGIBLE
+from labelcalc.labelling.model import CANNOT_TELL, ELIGIBLE, NOT_ELIGIBLE
 from labelcalc.labelling.rulepack import load_pack_file
 
 ROOT = Path(__file__).resolve().parent.parent

@@ -19,7 +19,7 @@ import claimkit
 import pytest
 from claimkit import Lab, statement  # noqa: F401
 
-from labelcalc.labelling.record import CANNOT_TELL, ELIGIBLE, NOT_ELIGIBLE
+from labelcalc.labelling.model import CANNOT_TELL, ELIGIBLE, NOT_ELIGIBLE
 from labelcalc.labelling.rulepack import load_packs
 
 US = load_packs()["us"]

@@ -28,8 +28,8 @@ from functools import cached_property
 
 import numpy as np
 
+from labelcalc import components as C
 from labelcalc.errors import InputError, Problem
-from labelcalc.formulation import components as C
 from labelcalc.intake.formula import Formula, ProcessStep
 from labelcalc.intake.library import Library
 

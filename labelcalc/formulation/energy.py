@@ -22,8 +22,8 @@ from typing import Literal
 import numpy as np
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
 
+from labelcalc import components as C
 from labelcalc.errors import Problem, RuleError, UnknownNameError
-from labelcalc.formulation import components as C
 from labelcalc.formulation.composition import ATWATER_REPLACED, COL, COLUMNS, Composition
 from labelcalc.intake.yamlsafe import load_yaml, pydantic_problems
 

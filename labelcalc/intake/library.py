@@ -31,8 +31,8 @@ from typing import Literal
 import numpy as np
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator
 
+from labelcalc import components as C
 from labelcalc.errors import InputError, Problem, ProblemList, display_path
-from labelcalc.formulation import components as C
 from labelcalc.intake.yamlsafe import LoadedYaml, load_yaml, pydantic_problems
 
 SUM_TOLERANCE_G = 0.5  # published tables are rounded; common practice

@@ -11,11 +11,11 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
+from labelcalc import components as C
 from labelcalc.errors import InputError, Problem
-from labelcalc.formulation import components as C
 from labelcalc.formulation.composition import Composition
 from labelcalc.lab.certificates import ANALYTES, LabFile, Result
-from labelcalc.labelling.record import Declaration
+from labelcalc.labelling.model import Declaration
 from labelcalc.labelling.rounding import apply_rounding, format_number, to_decimal
 from labelcalc.labelling.rulepack_assess import ComplianceRule
 

@@ -11,7 +11,8 @@ the engine (:mod:`engine`); this is its single-product entry point.
 from __future__ import annotations
 
 from labelcalc.formulation.composition import Composition
-from labelcalc.labelling.record import Assessment, Declaration, label_one
+from labelcalc.labelling.model import Assessment, Declaration
+from labelcalc.labelling.record import label_one
 from labelcalc.labelling.rulepack import RulePack
 
 

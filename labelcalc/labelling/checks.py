@@ -15,7 +15,7 @@ import numpy as np
 
 from labelcalc.formulation.composition import COL
 from labelcalc.formulation.energy import energy_vectors
-from labelcalc.labelling.record import Assessment, Declaration
+from labelcalc.labelling.model import Assessment, Declaration
 
 
 @dataclass
@@ -106,7 +106,7 @@ def _energy_check(decl: Declaration, basis: str) -> list[Check]:
 
 
 def _expand(key: str) -> list[str]:
-    from labelcalc.formulation import components as C
+    from labelcalc import components as C
 
     return list(C.DERIVED.get(key, (key,)))
 

@@ -7,7 +7,8 @@ composition and returns the declaration of its label record (:mod:`record`).
 from __future__ import annotations
 
 from labelcalc.formulation.composition import Composition
-from labelcalc.labelling.record import Declaration, label_one
+from labelcalc.labelling.model import Declaration
+from labelcalc.labelling.record import label_one
 from labelcalc.labelling.rulepack import RulePack
 
 

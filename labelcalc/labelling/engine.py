@@ -22,8 +22,8 @@ from functools import cached_property
 
 import numpy as np
 
+from labelcalc import components as C
 from labelcalc.errors import InputError, LabelError, Problem, RuleError
-from labelcalc.formulation import components as C
 from labelcalc.formulation.composition import COL, Composition
 from labelcalc.formulation.energy import EnergyTable, energy_table, load_factor_set
 from labelcalc.labelling.plan import ServingPlan, energy_method, serving_plan

@@ -15,139 +15,29 @@ from functools import cached_property
 
 import numpy as np
 
-from labelcalc.formulation import components as C
+from labelcalc import components as C
 from labelcalc.formulation.composition import Composition
 from labelcalc.formulation.energy import EnergyResult
 from labelcalc.labelling import engine as E
+from labelcalc.labelling.checks import Check, run_checks
 from labelcalc.labelling.ingredients import allergen_report, ingredient_list
+from labelcalc.labelling.model import (
+    CANNOT_TELL,
+    ELIGIBLE,
+    NOT_ELIGIBLE,
+    Assessment,
+    ClaimVerdict,
+    Declaration,
+    DeclaredRow,
+    Figure,
+    StatementFlag,
+)
 from labelcalc.labelling.plan import servings_text
-from labelcalc.labelling.rounding import Rounded, format_number, to_decimal
+from labelcalc.labelling.rounding import format_number, to_decimal
 from labelcalc.labelling.rulepack import RulePack
+from labelcalc.labelling.trace import trace_of
 
-ELIGIBLE, NOT_ELIGIBLE, CANNOT_TELL = "eligible", "not eligible", "cannot tell"
 VERDICT_TEXT = {E.VERDICT_ELIGIBLE: ELIGIBLE, E.VERDICT_NOT_ELIGIBLE: NOT_ELIGIBLE, E.VERDICT_CANNOT_TELL: CANNOT_TELL}
-BASIS_LABEL = {"per_100g": "per 100 g", "per_serving": "per serving", "per_container": "per container"}
-
-
-# ------------------------------------------------------------------ the record's parts
-@dataclass
-class DeclaredRow:
-    nutrient: str
-    label: str
-    unit: str
-    requirement: str
-    shown: bool
-    why: str
-    indent: int
-    bold: bool
-    show_unit: bool
-    unrounded: dict[str, float | None]
-    declared: dict[str, Rounded | None]
-    percent: dict[str, str | None]
-    percent_unrounded: dict[str, float | None]
-    source: list[str]
-    unknown_inputs: list[str] = field(default_factory=list)
-    value_per_100g: float | None = None
-    percent_only: bool = False
-    unit_label: str | None = None
-
-    def text(self, basis: str) -> str:
-        """The figure as printed, with its unit."""
-        r = self.declared.get(basis)
-        if r is None:
-            return "unknown"
-        unit = self.unit_label or E.display_unit(self.unit)
-        return f"{r.text} {unit}" if self.show_unit else r.text
-
-    @property
-    def amount_in_label(self) -> bool:
-        """The label carries the amount itself, e.g. 'Includes {amount} Added Sugars'."""
-        return "{amount}" in self.label
-
-    def label_for(self, basis: str) -> str:
-        if not self.amount_in_label:
-            return self.label
-        return self.label.replace("{amount}", self.text(basis).replace(" ", ""))
-
-
-@dataclass
-class Declaration:
-    market: str
-    pack: RulePack
-    composition: Composition
-    columns: list[str]
-    serving_g: float | None
-    container_g: float | None
-    servings_text: str | None
-    single_serving: bool
-    dual_column: bool
-    reference_amount: tuple[str, float, str] | None  # (category, grams, citation)
-    rows: list[DeclaredRow]
-    declared_energy: EnergyResult
-    available_energy: EnergyResult
-    notes: list[str]
-    reviews: list[str]
-    values: dict = field(default_factory=dict, repr=False)  # nutrient -> (unrounded per 100 g, unknown inputs)
-    record: LabelRecord | None = field(default=None, repr=False, compare=False)  # the record it belongs to
-
-    @property
-    def shown_rows(self) -> list[DeclaredRow]:
-        return [r for r in self.rows if r.shown]
-
-    def row(self, nutrient: str) -> DeclaredRow:
-        for r in self.rows:
-            if r.nutrient == nutrient:
-                return r
-        raise KeyError(nutrient)
-
-
-@dataclass
-class Figure:
-    quantity: str
-    basis: str
-    value: float | None
-    unit: str
-    missing: str | None = None
-
-
-@dataclass
-class ClaimVerdict:
-    claim: str
-    label: str
-    verdict: str
-    failed: list[str]
-    missing: list[str]
-    figures: list[Figure]
-    texts: list[str]
-    citation: str
-    confidence: str
-    notes: list[str] = field(default_factory=list)
-    intended: bool = False
-
-
-@dataclass
-class StatementFlag:
-    statement: str
-    text: str
-    trigger: str
-    figures: list[str]
-    citation: str
-    confidence: str
-    caution: str | None
-    placement: str | None
-    status: str = "required"  # or "review"
-
-
-@dataclass
-class Assessment:
-    market: str
-    declaration: Declaration
-    claims: list[ClaimVerdict]
-    statements: list[StatementFlag]
-    allergens: dict
-    ingredient_list: dict | None
-    front_of_pack: list[dict]
-    reviews: list[str]
 
 
 @dataclass
@@ -165,18 +55,14 @@ class LabelRecord:
         return assessment_of(self)
 
     @cached_property
-    def checks(self) -> list:
+    def checks(self) -> list[Check]:
         """The consistency checks every panel passes before it is written (:mod:`checks`)."""
-        from labelcalc.labelling.checks import run_checks
-
         return run_checks(self.assessment)
 
     @cached_property
     def trace(self) -> dict:
         """How every shown figure was reached, down to the leaf ingredients (built on first use)."""
-        from labelcalc.labelling.trace import trace_of
-
-        return trace_of(self)
+        return trace_of(self.declaration)
 
 
 def _f(v) -> float | None:

@@ -15,8 +15,8 @@ from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
 
+from labelcalc import components as C
 from labelcalc.errors import Problem, ProblemList, RuleError, UnknownNameError
-from labelcalc.formulation import components as C
 from labelcalc.formulation.energy import Confidence, load_factor_set, rules_dir
 from labelcalc.intake.yamlsafe import load_yaml, pydantic_problems
 from labelcalc.labelling.rounding import RoundingRule

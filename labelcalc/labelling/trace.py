@@ -13,18 +13,14 @@ The figures come from the record (declared values) and from the composition's le
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
-
 import numpy as np
 
-from labelcalc.formulation import components as C
+from labelcalc import components as C
 from labelcalc.formulation.composition import ATWATER_REPLACED, COL
 from labelcalc.formulation.energy import FactorSet, energy_vectors
 from labelcalc.formulation.leaves import LeafLine, leaf_lines
+from labelcalc.labelling.model import Declaration
 from labelcalc.labelling.rounding import RoundingRule
-
-if TYPE_CHECKING:
-    from labelcalc.labelling.record import LabelRecord
 
 
 def band_text(rule: RoundingRule, band_index: int) -> str:
@@ -120,9 +116,8 @@ def _factors(fs: FactorSet, unit: str) -> list[dict]:
     return out
 
 
-def trace_of(rec: LabelRecord) -> dict:
-    """The trace of every shown row of ``rec`` (see the module docstring); JSON-ready."""
-    d = rec.declaration
+def trace_of(d: Declaration) -> dict:
+    """The trace of every shown row of a declaration (see the module docstring); JSON-ready."""
     pack = d.pack
     comp = d.composition
     lines = leaf_lines(comp)

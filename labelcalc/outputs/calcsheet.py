@@ -10,7 +10,7 @@ import csv
 from pathlib import Path
 
 from labelcalc.files import atomic_write
-from labelcalc.labelling.record import Assessment
+from labelcalc.labelling.model import Assessment
 from labelcalc.labelling.rounding import format_number, to_decimal
 
 COLUMNS = [

@@ -7,7 +7,7 @@ from __future__ import annotations
 
 from dataclasses import asdict
 
-from labelcalc.labelling.record import Assessment, Declaration
+from labelcalc.labelling.model import Assessment, Declaration
 
 
 def declaration_dict(d: Declaration, *, trace: bool = False) -> dict:

@@ -26,7 +26,7 @@ from reportlab.platypus import Flowable, PageBreak, Paragraph, SimpleDocTemplate
 from labelcalc import __version__
 from labelcalc.labelling.checks import Check
 from labelcalc.labelling.ingredients import allergen_name
-from labelcalc.labelling.record import BASIS_LABEL, ELIGIBLE, Assessment, Declaration
+from labelcalc.labelling.model import BASIS_LABEL, ELIGIBLE, Assessment, Declaration
 from labelcalc.outputs.calcsheet import calculation_rows
 
 CAUTION = "DRAFT — verify against current local regulation and a qualified regulatory professional before use."

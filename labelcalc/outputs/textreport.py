@@ -2,10 +2,10 @@
 
 from __future__ import annotations
 
-from labelcalc.formulation import components as C
+from labelcalc import components as C
 from labelcalc.formulation.composition import Composition
 from labelcalc.formulation.energy import EnergyResult, energy_by_line
-from labelcalc.labelling.record import BASIS_LABEL, Declaration
+from labelcalc.labelling.model import BASIS_LABEL, Declaration
 
 DRAFT = "DRAFT — figures for review; verify against current local regulation and a qualified regulatory professional."
 

@@ -19,7 +19,7 @@ from labelcalc.intake.formula import Formula, Header, Line, map_tree
 from labelcalc.intake.library import Library
 from labelcalc.intake.quantities import Quantity
 from labelcalc.labelling.assess import assess_against
-from labelcalc.labelling.record import ELIGIBLE
+from labelcalc.labelling.model import ELIGIBLE
 from labelcalc.labelling.rulepack import RulePack
 from labelcalc.whatif.costing import cost_of
 
