@@ -19,6 +19,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from functools import cached_property
+from typing import Any
 
 import numpy as np
 
@@ -26,6 +27,7 @@ from labelcalc import components as C
 from labelcalc.errors import InputError, LabelError, Problem, RuleError
 from labelcalc.formulation.composition import COL, Composition
 from labelcalc.formulation.energy import EnergyTable, energy_table, load_factor_set
+from labelcalc.labelling.ingredients import allergen_report
 from labelcalc.labelling.plan import ServingPlan, energy_method, serving_plan
 from labelcalc.labelling.rounding import NONE, Q, RoundedArray, q_of, q_scalar, round_values, to_decimal
 from labelcalc.labelling.rulepack import Row, RulePack
@@ -195,6 +197,24 @@ class LabelEngine:
         """Kinds of the ingredients each product uses (through sub-formulas)."""
         return [{k for i in f.ingredients_used() for k in i.kinds} for f in self.products]
 
+    def ingredients_of_kinds(self, kinds: list[str]) -> list[list[str]]:
+        """Per product, the ingredients (ids, sorted) of any of ``kinds``."""
+        want = set(kinds)
+        if not want:
+            return [[] for _ in range(self.n)]
+        return [
+            sorted(i.id for i in f.ingredients_used() if set(i.kinds) & want) if self.kinds[k] & want else []
+            for k, f in enumerate(self.products)
+        ]
+
+    @cached_property
+    def as_lists(self) -> dict[str, Any]:
+        """Shown flags and printed percentages as plain lists, for per-label readers (range summaries)."""
+        return {
+            "shown": {k: v.tolist() for k, v in self.shown.items()},
+            "percent": {k: {b: t for b, (t, _) in cols.items()} for k, cols in self.percent.items()},
+        }
+
     # ----------------------------------------------------------------- energy
     def _energy(self) -> None:
         n = self.n
@@ -214,11 +234,24 @@ class LabelEngine:
         pos = int(np.searchsorted(self.energy_rows[m], i))
         return self.energy_tables[m].result(pos)
 
-    def declared_energy_reviews(self, i: int) -> list[str]:
-        """Distinct review notes of product ``i``'s declared-energy factor set."""
-        m = self.methods[i]
-        pos = int(np.searchsorted(self.energy_rows[m], i))
-        return list(dict.fromkeys(self.energy_tables[m].reviews(pos)))
+    @cached_property
+    def energy_review_counts(self) -> np.ndarray:
+        """Number of distinct review notes of each product's declared-energy factor set."""
+        counts = np.zeros(self.n, dtype=int)
+        for m, rows in self.energy_rows.items():
+            hits: dict[str, np.ndarray] = {}
+            for text, hit in self.energy_tables[m].review_hits:
+                hits[text] = hits.get(text, np.zeros(len(rows), dtype=bool)) | hit
+            counts[rows] = np.sum(list(hits.values()), axis=0) if hits else 0
+        return counts
+
+    def allergens(self, i: int) -> dict:
+        """The allergen report of product ``i`` (walked through its ingredients; see :mod:`ingredients`)."""
+        cache = self.__dict__.setdefault("_allergens", {})
+        got = cache.get(i)
+        if got is None:
+            got = cache[i] = allergen_report(self.comps[i], self.pack)
+        return got
 
     # -------------------------------------------------------------- nutrients
     def _nutrients(self) -> None:
@@ -494,19 +527,9 @@ class LabelEngine:
                     undecided |= some_m & ~some_f
                 missing |= ~any_group & undecided
                 failed |= ~any_group & ~undecided
-            banned = [
-                sorted(i.id for i in f.ingredients_used() if set(i.kinds) & set(cl.fails_with_ingredient_kinds))
-                if cl.fails_with_ingredient_kinds
-                else []
-                for f in self.products
-            ]
+            banned = self.ingredients_of_kinds(cl.fails_with_ingredient_kinds)
             failed |= np.array([bool(b) for b in banned], dtype=bool)
-            flagged = [
-                [i.id for i in f.ingredients_used() if set(i.kinds) & set(cl.no_ingredient_kinds)]
-                if cl.no_ingredient_kinds
-                else []
-                for f in self.products
-            ]
+            flagged = self.ingredients_of_kinds(cl.no_ingredient_kinds)
             ref_q = np.zeros(n, dtype=bool)
             if cl.reference_must_not_qualify and cl.reference_must_not_qualify in by_id and self.reference_engine:
                 rv = next(r for r in self.reference_engine.claims if r.claim.id == cl.reference_must_not_qualify)
@@ -531,11 +554,15 @@ class LabelEngine:
         """Each statement of the pack with its triggers evaluated for every product."""
         return [(st, [self.trigger(t) for t in st.triggers]) for st in self.pack.statements]
 
-    def statement_fired(self, triggers: list[TriggerResult]) -> tuple[np.ndarray, np.ndarray]:
-        """(required, undecided-only) for every product: the first trigger that holds decides."""
-        hit = np.any([t.hit for t in triggers], axis=0)
-        undecided = np.any([t.undecided for t in triggers], axis=0) & ~hit
-        return hit, undecided
+    @cached_property
+    def statements_listed(self) -> np.ndarray:
+        """(statements x products): the statement is required, or flagged for review because a trigger
+        cannot be decided."""
+        if not self.statements:
+            return np.zeros((0, self.n), dtype=bool)
+        return np.array(
+            [np.any([t.hit | t.undecided for t in triggers], axis=0) for _, triggers in self.statements], dtype=bool
+        ).reshape(len(self.statements), self.n)
 
     def trigger(self, t: StatementTrigger) -> TriggerResult:
         n = self.n

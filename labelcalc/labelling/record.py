@@ -20,7 +20,7 @@ from labelcalc.formulation.composition import Composition
 from labelcalc.formulation.energy import EnergyResult
 from labelcalc.labelling import engine as E
 from labelcalc.labelling.checks import Check, run_checks
-from labelcalc.labelling.ingredients import allergen_report, ingredient_list
+from labelcalc.labelling.ingredients import ingredient_list
 from labelcalc.labelling.model import (
     CANNOT_TELL,
     ELIGIBLE,
@@ -583,7 +583,7 @@ def assessment_of(rec: LabelRecord) -> Assessment:
     comp = eng.comps[i]
     claims = claim_verdicts(eng, i)
     statements = statement_flags(eng, i, claims)
-    allergens = allergen_report(comp, eng.pack)
+    allergens = eng.allergens(i)
     ilist = ingredient_list(comp, eng.pack) if rec.with_ingredient_list else None
     reviews = zero_row_reviews(eng, decl, i) + allergens.get("review", [])
     return Assessment(eng.pack.market, decl, claims, statements, allergens, ilist, front_of_pack(eng, i), reviews)

@@ -10,7 +10,6 @@ from __future__ import annotations
 import numpy as np
 
 from labelcalc.labelling.engine import VERDICT_ELIGIBLE, LabelEngine
-from labelcalc.labelling.ingredients import allergen_report
 from labelcalc.labelling.record import front_of_pack
 
 
@@ -45,26 +44,26 @@ def label_summary(eng: LabelEngine, i: int) -> tuple[dict, dict[str, str | None]
     }
     declared: dict[str, str | None] = {}
     pb = pack.panel.percent_basis or main
+    lists = eng.as_lists
     for r in pack.rows:
-        if not eng.shown[r.nutrient][i]:
+        n = r.nutrient
+        if not lists["shown"][n][i]:
             continue
-        text = eng.texts(r.nutrient, main)[i]
-        row[r.nutrient] = r.label.replace("{amount}", text.replace(" ", "")) if "{amount}" in r.label else text
-        pct = eng.percent[r.nutrient].get(pb)
-        if pct and pct[0][i]:
-            row[f"{r.nutrient}_percent"] = pct[0][i]
+        text = eng.texts(n, main)[i]
+        row[n] = r.label.replace("{amount}", text.replace(" ", "")) if "{amount}" in r.label else text
+        pcts = lists["percent"][n]
+        pct = pcts.get(pb)
+        if pct and pct[i]:
+            row[f"{n}_percent"] = pct[i]
         for b in plan.columns:
-            declared[f"{r.nutrient}|{b}"] = eng.texts(r.nutrient, b)[i]
-            pc = eng.percent[r.nutrient].get(b)
-            if pc and pc[0][i]:
-                declared[f"{r.nutrient}|{b}|%"] = pc[0][i]
+            declared[f"{n}|{b}"] = eng.texts(n, b)[i]
+            pc = pcts.get(b)
+            if pc and pc[i]:
+                declared[f"{n}|{b}|%"] = pc[i]
     claims = [c.claim.id for c in eng.claims if c.verdict[i] == VERDICT_ELIGIBLE]
-    statements = []
-    for st, triggers in eng.statements:
-        hit, undecided = eng.statement_fired(triggers)
-        if hit[i] or undecided[i]:
-            statements.append(st.id)
-    allergens = allergen_report(comp, pack)
+    listed = eng.statements_listed[:, i]
+    statements = [st.id for (st, _), on in zip(eng.statements, listed) if on]
+    allergens = eng.allergens(i)
     fop = front_of_pack(eng, i)
     row["claims_eligible"] = "; ".join(claims)
     row["statements_required"] = "; ".join(statements)
@@ -76,6 +75,6 @@ def label_summary(eng: LabelEngine, i: int) -> tuple[dict, dict[str, str | None]
         for fo in fop
     )
     zero = sum(bool(flags[i]) for flags in eng.zero_rows.values())
-    reviews = len(eng.declared_energy_reviews(i)) + zero + len(allergens.get("review", []))
+    reviews = int(eng.energy_review_counts[i]) + zero + len(allergens.get("review", []))
     row["reviews"] = reviews
     return row, declared, sorted(statements), sorted(allergens.get("declared", [])), sorted(claims)
