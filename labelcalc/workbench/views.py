@@ -1,0 +1,309 @@
+"""What the workbench shows for one state of a formula: computed through the public engine functions only.
+
+Every figure comes from ``compose``, ``declare``/``assess_against`` (the :class:`Declaration` and
+:class:`Assessment` records) and, for the replacement slider, :mod:`labelcalc.whatif.explore`.  A state is the
+formula text being edited, the chosen markets and scenario, and an optional replacement (old, new, level).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from labelcalc.errors import LabelError, Problem
+from labelcalc.formulation import components as C
+from labelcalc.formulation.composition import COL, Composition, compose
+from labelcalc.formulation.energy import energy_by_line
+from labelcalc.intake.formula import Formula
+from labelcalc.intake.library import Library
+from labelcalc.labelling.assess import Assessment, assess_against
+from labelcalc.labelling.declare import BASIS_LABEL, display_unit
+from labelcalc.whatif.explore import substitute, sweep
+from labelcalc.workbench.panelhtml import panel_view
+from labelcalc.workbench.workspace import Workspace
+
+SWEEP_LEVELS = [float(x) for x in range(0, 101, 10)]
+
+
+@dataclass
+class State:
+    path: str
+    text: str
+    markets: list[str]
+    scenario: int = 0
+    replace: str = ""
+    with_: str = ""
+    level: float = 0.0
+
+    @classmethod
+    def from_json(cls, body: dict, default_markets: list[str]) -> State:
+        try:
+            level = float(body.get("level") or 0)
+        except (TypeError, ValueError):
+            level = 0.0
+        return cls(
+            path=str(body.get("path") or ""),
+            text=str(body.get("yaml") or ""),
+            markets=[str(m) for m in (body.get("markets") or default_markets)],
+            scenario=int(body.get("scenario") or 0),
+            replace=str(body.get("replace") or ""),
+            with_=str(body.get("with") or ""),
+            level=min(100.0, max(0.0, level)),
+        )
+
+    @property
+    def replacing(self) -> bool:
+        return bool(self.replace and self.with_)
+
+
+@dataclass
+class Computed:
+    """A formula state worked through the engine (or the problems that stop it)."""
+
+    problems: list[Problem] = field(default_factory=list)
+    formula: Formula | None = None
+    library: Library | None = None
+    comps: list[Composition] = field(default_factory=list)
+    reference: list[Composition] | None = None
+    assessments: dict[tuple[str, int], Assessment] = field(default_factory=dict)
+
+
+def compute(ws: Workspace, st: State) -> Computed:
+    """Validate the text, apply the replacement, compose, declare and assess for every chosen market."""
+    out = Computed()
+    try:
+        path = ws.formula_path(st.path)
+        f, lib = ws.formula_from_text(st.text, path)
+        out.formula, out.library = f, lib
+        out.reference = ws.reference(f, lib)
+        if st.replacing:
+            f = substitute(f, st.replace, st.with_, st.level, lib)
+        out.comps = compose(f, lib)
+        for p in ws.packs(st.markets):
+            for i, c in enumerate(out.comps):
+                out.assessments[(p.market, i)] = assess_against(c, p, out.reference, i)
+    except LabelError as exc:
+        out.problems = exc.problems
+    return out
+
+
+def _num(v: float | None, digits: int = 1) -> str:
+    if v is None or (isinstance(v, float) and math.isnan(v)):
+        return "unknown"
+    return f"{v:,.{digits}f}"
+
+
+def composition_rows(c: Composition) -> list[dict]:
+    """Components per 100 g and per serving (zero rows left out, unknown rows kept)."""
+    rows = []
+    for k in C.KEYS:
+        v = c.value(k)
+        if v is not None and abs(v) < 1e-9:
+            continue
+        comp = C.BY_KEY[k]
+        rows.append(
+            {
+                "key": k,
+                "unit": display_unit(comp.unit),
+                "indent": 1 if comp.part_of else 0,
+                "per_100g": _num(v, 3 if comp.unit == "g" else 1),
+                "per_serving": _num(c.per_serving(k), 3 if comp.unit == "g" else 1)
+                if c.formula.serving_grams()
+                else "",
+                "unknown_inputs": ", ".join(c.unknown_inputs(k)) if v is None else "",
+            }
+        )
+    return rows
+
+
+def energy_rows(items: list[Assessment]) -> list[dict]:
+    """Available beside declared energy for each market (one scenario)."""
+    out = []
+    for a in items:
+        d = a.declaration
+        s = d.serving_g
+        de, av = d.declared_energy, d.available_energy
+        out.append(
+            {
+                "market": a.market,
+                "factor_set": de.factor_set.factor_set.title,
+                "declared_kcal": _num(de.kcal),
+                "declared_kj": _num(de.kj, 0),
+                "available_kcal": _num(av.kcal),
+                "available_kj": _num(av.kj, 0),
+                "declared_kcal_serving": _num(de.per_serving(s)[1]) if s else "",
+                "available_kcal_serving": _num(av.per_serving(s)[1]) if s else "",
+                "reviews": [r.strip() for r in de.reviews],
+            }
+        )
+    return out
+
+
+def page_data(ws: Workspace, st: State, comp: Computed) -> dict:
+    """Everything the results part of the page shows."""
+    if comp.problems or not comp.comps:
+        return {"problems": comp.problems}
+    i = min(st.scenario, len(comp.comps) - 1)
+    items = [a for (m, j), a in comp.assessments.items() if j == i]
+    return {
+        "problems": [],
+        "scenarios": [c.scenario for c in comp.comps],
+        "scenario_index": i,
+        "scenario": comp.comps[i].scenario,
+        "composition": composition_rows(comp.comps[i]),
+        "serving_g": comp.comps[i].formula.serving_grams(),
+        "energy": energy_rows(items),
+        "markets": [{"a": a, "panel": panel_view(a.declaration)} for a in items],
+    }
+
+
+@dataclass
+class TraceLine:
+    """One contribution to a figure; ``path`` lists the steps from the product down to where it comes from."""
+
+    path: list[str]
+    per_100g: float | None
+    per_basis: float | None
+    source: str = ""
+
+
+def trace(comp: Computed, market: str, scenario: int, nutrient: str, basis: str) -> dict:
+    """Where one declared figure comes from: unrounded values, the rounding, unknown inputs, sources, and the
+    per-line contributions of the composition (batch lines and processing steps) to its per-100 g value."""
+    a = comp.assessments.get((market, scenario))
+    if a is None:
+        raise LabelError(Problem(f"no label for market '{market}' and scenario {scenario} in this view"))
+    d = a.declaration
+    try:
+        row = d.row(nutrient)
+    except KeyError:
+        raise LabelError(Problem(f"the '{market}' panel has no row '{nutrient}'")) from None
+    c = d.composition
+    nd = d.pack.nutrients[nutrient]
+    scale = None
+    if basis == "per_100g":
+        scale = 1.0
+    elif basis == "per_serving" and d.serving_g:
+        scale = d.serving_g / 100
+    elif basis == "per_container" and d.container_g:
+        scale = d.container_g / 100
+    lines: list[TraceLine] = []
+    if nd.energy:
+        for lab, kj, kcal in energy_by_line(c, d.declared_energy.factor_set):
+            v = kcal if nd.energy == "kcal" else kj
+            lines.append(TraceLine([lab], v, None if v is None or scale is None else v * scale))
+        how = f"energy from the factor set '{d.declared_energy.factor_set.factor_set.title}'"
+    else:
+        labels, rows = c.contributions
+        parts = [(k, f) for k, f in (nd.sum or {}).items()]
+        for lab, r in zip(labels, rows):
+            total = 0.0
+            for k, factor in parts:
+                keys = C.DERIVED.get(k, (k,))
+                total += factor * sum(float(r[COL[x]]) for x in keys)
+            v = None if math.isnan(total) else total
+            lines.append(TraceLine([lab], v, None if v is None or scale is None else v * scale))
+        how = " + ".join(f"{f:g} × {k}" if f != 1 else k for k, f in parts)
+    rounded = row.declared.get(basis)
+    return {
+        "market": market,
+        "scenario": c.scenario,
+        "nutrient": nutrient,
+        "label": row.label_for(basis) if basis in row.declared else row.label,
+        "unit": display_unit(row.unit),
+        "basis": basis,
+        "basis_label": BASIS_LABEL.get(basis, basis),
+        "declared": row.text(basis) if basis in row.declared else "not printed in this column",
+        "band": rounded.band if rounded is not None else None,
+        "unrounded": {BASIS_LABEL.get(b, b): _num(v, 4) for b, v in row.unrounded.items()},
+        "percent": {BASIS_LABEL.get(b, b): p for b, p in row.percent.items() if p},
+        "percent_unrounded": {BASIS_LABEL.get(b, b): _num(v, 2) for b, v in row.percent_unrounded.items()},
+        "unknown_inputs": row.unknown_inputs,
+        "sources": row.source,
+        "how": how,
+        "why_shown": row.why,
+        "lines": [
+            {"path": ln.path, "per_100g": _num(ln.per_100g, 4), "per_basis": _num(ln.per_basis, 4), "source": ln.source}
+            for ln in lines
+        ],
+        "total_per_100g": _num(row.value_per_100g, 4),
+    }
+
+
+def chart(ws: Workspace, st: State, comp: Computed, cache: dict | None = None) -> dict | None:
+    """The replacement sweep (0-100 % in steps of 10) as SVG coordinates: declared and available energy per
+    serving (per 100 g when there is no serving) for each chosen market, with the current level marked."""
+    if not st.replacing or comp.formula is None or comp.library is None:
+        return None
+    packs = ws.packs(st.markets)
+    key = (st.text, tuple(p.market for p in packs), st.replace, st.with_)
+    cache = {} if cache is None else cache
+    if key not in cache:  # the sweep does not depend on the slider's level: worked out once per formula text
+        cache.clear()
+        cache[key] = sweep(comp.formula, comp.library, packs, st.replace, st.with_, SWEEP_LEVELS, None, comp.reference)
+    rows = cache[key]
+    i = st.scenario
+    series: dict[str, list[tuple[float, float | None]]] = {}
+    per = "serving" if comp.formula.serving_grams() else "100 g"
+    for lvl, pts in rows:
+        scen = sorted({p.scenario for p in pts})
+        want = [c.scenario for c in comp.comps][min(i, len(comp.comps) - 1)] if comp.comps else scen[0]
+        for p in pts:
+            if p.scenario != want:
+                continue
+            dec = p.declared_kcal_per_serving if per == "serving" else p.declared_kcal_per_100g
+            av = p.available_kcal_per_serving if per == "serving" else p.available_kcal_per_100g
+            series.setdefault(f"{p.market} declared", []).append((lvl, dec))
+            series.setdefault(f"{p.market} available", []).append((lvl, av))
+    values = [v for s in series.values() for _, v in s if v is not None]
+    if not values:
+        return None
+    lo, hi = min(values), max(values)
+    lo, hi = (lo - 1, hi + 1) if hi - lo < 1e-9 else (lo, hi)
+    W, H, L, B, T = 520.0, 220.0, 48.0, 28.0, 12.0
+    R = 150.0  # room for the legend
+
+    def x(level: float) -> float:
+        return L + (W - L - R) * level / 100
+
+    def y(v: float) -> float:
+        return T + (H - T - B) * (1 - (v - lo) / (hi - lo))
+
+    lines = []
+    for k, (name, pts) in enumerate(series.items()):
+        coords = " ".join(f"{x(lv):.1f},{y(v):.1f}" for lv, v in pts if v is not None)
+        lines.append({"name": name, "points": coords, "dashed": name.endswith("available"), "n": k})
+    ticks = [lo + (hi - lo) * t / 4 for t in range(5)]
+    return {
+        "width": W,
+        "height": H,
+        "left": L,
+        "bottom": H - B,
+        "right": W - R,
+        "top": T,
+        "lines": lines,
+        "yticks": [{"y": y(t), "text": f"{t:.0f}"} for t in ticks],
+        "xticks": [{"x": x(lv), "text": f"{lv:g}"} for lv in (0, 25, 50, 75, 100)],
+        "marker": x(st.level),
+        "level": st.level,
+        "unit": f"kcal per {per}",
+        "legend_x": W - R + 10,
+    }
+
+
+def choices(comp: Computed, ws: Workspace, path: Path) -> dict:
+    """What the slider can replace (used in the formula) and with what (library ingredients, sub-formulas)."""
+    if comp.formula is None or comp.library is None:
+        return {"used": [], "candidates": []}
+    used = sorted({i.id for i in comp.formula.ingredients_used()} | _sub_ids(comp.formula))
+    index = ws.index()
+    subs = sorted(k for k, kind in index.kinds.items() if kind == "subformula")
+    return {"used": used, "candidates": sorted(comp.library.ids) + subs}
+
+
+def _sub_ids(f: Formula) -> set[str]:
+    out: set[str] = set()
+    for sub in f.sub_formulas():
+        out |= {sub.id} | _sub_ids(sub)
+    return out
