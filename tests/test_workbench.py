@@ -87,7 +87,11 @@ def test_html_panel_reads_the_declarations_shown_rows(market, demo_lib):
 
 
 def test_form_edit_writes_the_yaml_and_keeps_comments(client, folder):
-    body = _state(folder, source="form", fields={"product.serving.size": "30 g", "batch[0].amount": "96 %", "batch[1].amount": "4 %"})
+    body = _state(
+        folder,
+        source="form",
+        fields={"product.serving.size": "30 g", "batch[0].amount": "96 %", "batch[1].amount": "4 %"},
+    )
     j = client.post("/api/update", json=body).json()
     assert j["problems"] == []
     assert "serving: {size: 30 g" in j["yaml"] and "amount: 4 %" in j["yaml"]
@@ -128,10 +132,10 @@ def test_trace_contributions_add_up_to_the_unrounded_value(folder):
     ws = Workspace.open(folder, markets=["us", "eu"])
     comp = compute(ws, State.from_json(_state(folder), ws.markets))
     for market, nutrient in [("us", "total_fat"), ("us", "energy_kcal"), ("eu", "energy_kj"), ("eu", "salt")]:
-        t = trace(comp, market, 0, nutrient, "per_100g")
-        total = sum(float(ln["per_100g"].replace(",", "")) for ln in t["lines"])
+        t = trace(comp, market, 0, nutrient, comp.assessments[(market, 0)].declaration.columns[0])
+        total = sum(float(ln["value"].split()[0].replace(",", "")) for ln in t["lines"])
         assert total == pytest.approx(float(t["total_per_100g"].replace(",", "")), abs=1e-3)
-        assert t["sources"] and t["lines"][0]["path"]
+        assert t["sources"] and t["lines"][0]["path"] and t["rounding"]
 
 
 def test_trace_endpoint_renders_the_figures_trace(client, folder):

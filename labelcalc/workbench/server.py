@@ -118,18 +118,29 @@ def create_app(ws: Workspace, *, host: str = "127.0.0.1") -> Starlette:
             before = st.text
             try:
                 st.text = apply_fields(
-                    st.text, st.path, dict(body.get("fields") or {}), add=body.get("add"), remove=body.get("remove") or ()
+                    st.text,
+                    st.path,
+                    dict(body.get("fields") or {}),
+                    add=body.get("add"),
+                    remove=body.get("remove") or (),
                 )
             except LabelError as exc:
                 comp = compute(ws, st)
                 comp.problems = exc.problems
-                return JSONResponse({"yaml": st.text, "problems": _problems_json(exc.problems), **fragments(st, comp, st.text)})
+                return JSONResponse(
+                    {"yaml": st.text, "problems": _problems_json(exc.problems), **fragments(st, comp, st.text)}
+                )
             lost = comment_count(before) - comment_count(st.text)
             if lost > 0:
                 notice = f"{lost} comment(s) could not be kept by this edit and will be lost when you save."
         comp = compute(ws, st)
         return JSONResponse(
-            {"yaml": st.text, "notice": notice, "problems": _problems_json(comp.problems), **fragments(st, comp, st.text)}
+            {
+                "yaml": st.text,
+                "notice": notice,
+                "problems": _problems_json(comp.problems),
+                **fragments(st, comp, st.text),
+            }
         )
 
     async def trace_view(request: Request) -> Response:
@@ -138,7 +149,13 @@ def create_app(ws: Workspace, *, host: str = "127.0.0.1") -> Starlette:
         comp = compute(ws, st)
         if comp.problems:
             raise InputError(comp.problems)
-        t = trace(comp, str(body.get("market")), int(body.get("scenario_index") or 0), str(body.get("nutrient")), str(body.get("basis")))
+        t = trace(
+            comp,
+            str(body.get("market")),
+            int(body.get("scenario_index") or 0),
+            str(body.get("nutrient")),
+            str(body.get("basis")),
+        )
         return HTMLResponse(render("trace.html", t=t))
 
     async def save(request: Request) -> Response:

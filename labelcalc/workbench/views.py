@@ -13,12 +13,12 @@ from pathlib import Path
 
 from labelcalc.errors import LabelError, Problem
 from labelcalc.formulation import components as C
-from labelcalc.formulation.composition import COL, Composition, compose
-from labelcalc.formulation.energy import energy_by_line
+from labelcalc.formulation.composition import Composition, compose
 from labelcalc.intake.formula import Formula
 from labelcalc.intake.library import Library
 from labelcalc.labelling.assess import Assessment, assess_against
 from labelcalc.labelling.declare import BASIS_LABEL, display_unit
+from labelcalc.outputs.calcsheet import calculation_rows
 from labelcalc.whatif.explore import substitute, sweep
 from labelcalc.workbench.panelhtml import panel_view
 from labelcalc.workbench.workspace import Workspace
@@ -158,19 +158,11 @@ def page_data(ws: Workspace, st: State, comp: Computed) -> dict:
     }
 
 
-@dataclass
-class TraceLine:
-    """One contribution to a figure; ``path`` lists the steps from the product down to where it comes from."""
-
-    path: list[str]
-    per_100g: float | None
-    per_basis: float | None
-    source: str = ""
-
-
 def trace(comp: Computed, market: str, scenario: int, nutrient: str, basis: str) -> dict:
-    """Where one declared figure comes from: unrounded values, the rounding, unknown inputs, sources, and the
-    per-line contributions of the composition (batch lines and processing steps) to its per-100 g value."""
+    """Where one declared figure comes from, read from the calculation sheet's rows of the label
+    (:func:`labelcalc.outputs.calcsheet.calculation_rows`, the same trace the sheet prints): the unrounded value,
+    the rounding band applied, the percentage, unknown inputs, sources, and a list of contribution lines (today
+    the composition's batch lines and processing steps; a richer record adds lines the view shows the same way)."""
     a = comp.assessments.get((market, scenario))
     if a is None:
         raise LabelError(Problem(f"no label for market '{market}' and scenario {scenario} in this view"))
@@ -179,54 +171,38 @@ def trace(comp: Computed, market: str, scenario: int, nutrient: str, basis: str)
         row = d.row(nutrient)
     except KeyError:
         raise LabelError(Problem(f"the '{market}' panel has no row '{nutrient}'")) from None
-    c = d.composition
+    sheet = calculation_rows(a)
+    column = basis.replace("_", " ")
+    figure = next(
+        (x for x in sheet if x["kind"] == "figure" and x["nutrient"] == nutrient and x["column"] == column), None
+    )
     nd = d.pack.nutrients[nutrient]
-    scale = None
-    if basis == "per_100g":
-        scale = 1.0
-    elif basis == "per_serving" and d.serving_g:
-        scale = d.serving_g / 100
-    elif basis == "per_container" and d.container_g:
-        scale = d.container_g / 100
-    lines: list[TraceLine] = []
     if nd.energy:
-        for lab, kj, kcal in energy_by_line(c, d.declared_energy.factor_set):
-            v = kcal if nd.energy == "kcal" else kj
-            lines.append(TraceLine([lab], v, None if v is None or scale is None else v * scale))
         how = f"energy from the factor set '{d.declared_energy.factor_set.factor_set.title}'"
     else:
-        labels, rows = c.contributions
-        parts = [(k, f) for k, f in (nd.sum or {}).items()]
-        for lab, r in zip(labels, rows):
-            total = 0.0
-            for k, factor in parts:
-                keys = C.DERIVED.get(k, (k,))
-                total += factor * sum(float(r[COL[x]]) for x in keys)
-            v = None if math.isnan(total) else total
-            lines.append(TraceLine([lab], v, None if v is None or scale is None else v * scale))
-        how = " + ".join(f"{f:g} × {k}" if f != 1 else k for k, f in parts)
-    rounded = row.declared.get(basis)
+        how = " + ".join(f"{f:g} × {k}" if f != 1 else k for k, f in (nd.sum or {}).items())
+    lines = [
+        {"path": [x["line"]], "value": x["value"], "source": x.get("source", "")}
+        for x in sheet
+        if x["kind"] == "contribution" and x["nutrient"] == nutrient
+    ]
     return {
         "market": market,
-        "scenario": c.scenario,
+        "scenario": d.composition.scenario,
         "nutrient": nutrient,
         "label": row.label_for(basis) if basis in row.declared else row.label,
         "unit": display_unit(row.unit),
         "basis": basis,
         "basis_label": BASIS_LABEL.get(basis, basis),
-        "declared": row.text(basis) if basis in row.declared else "not printed in this column",
-        "band": rounded.band if rounded is not None else None,
+        "declared": figure["declared"] if figure else "not printed in this column",
         "unrounded": {BASIS_LABEL.get(b, b): _num(v, 4) for b, v in row.unrounded.items()},
-        "percent": {BASIS_LABEL.get(b, b): p for b, p in row.percent.items() if p},
-        "percent_unrounded": {BASIS_LABEL.get(b, b): _num(v, 2) for b, v in row.percent_unrounded.items()},
+        "rounding": figure["rounding"] if figure else "",
+        "percent": figure["percent"] if figure else "",
         "unknown_inputs": row.unknown_inputs,
         "sources": row.source,
         "how": how,
         "why_shown": row.why,
-        "lines": [
-            {"path": ln.path, "per_100g": _num(ln.per_100g, 4), "per_basis": _num(ln.per_basis, 4), "source": ln.source}
-            for ln in lines
-        ],
+        "lines": lines,
         "total_per_100g": _num(row.value_per_100g, 4),
     }
 
