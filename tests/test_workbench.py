@@ -214,3 +214,59 @@ def test_loopback_detection_and_serve_refuses_unknown_market(folder):
     assert not is_loopback("0.0.0.0") and not is_loopback("192.168.1.5")
     res = CliRunner().invoke(cli_app, ["serve", str(folder), "--market", "zz"])
     assert res.exit_code == 2 and "zz" in res.output
+
+
+def test_a_single_opened_file_is_the_only_product(folder):
+    c = TestClient(create_app(Workspace.open(folder / KETTLE)))
+    r = c.get("/")
+    assert KETTLE in r.text and "hl_oat_bar.yaml" not in r.text
+    assert c.get("/product", params={"path": KETTLE}).status_code == 200
+
+
+def test_text_from_the_formula_is_escaped_never_run(client, folder):
+    body = _state(folder, source="form", fields={"product.serving.household": "<script>alert(1)</script>"})
+    j = client.post("/api/update", json=body).json()
+    assert "<script>alert(1)</script>" not in j["results_html"] + j["form_html"]
+    assert "&lt;script&gt;" in j["form_html"]
+
+
+def test_python_tags_in_yaml_are_refused_like_the_cli(client, folder):
+    body = _state(folder, source="yaml")
+    body["yaml"] = body["yaml"].replace('version: "1"', "version: !!python/object/apply:os.system ['true']")
+    j = client.post("/api/update", json=body).json()
+    assert j["problems"] and "YAML syntax error" in j["problems"][0]["text"]
+
+
+def test_claims_show_the_condition_that_fails(client, folder):
+    html = client.get("/product", params={"path": KETTLE}).text
+    assert "fails: energy_kcal per reference amount" in html
+
+
+def test_scenarios_of_a_ranged_input_are_offered_and_switch_the_panels(client, folder):
+    low = client.post("/api/update", json=_state(folder, source="yaml", scenario=0)).json()["results_html"]
+    high = client.post("/api/update", json=_state(folder, source="yaml", scenario=1)).json()["results_html"]
+    assert 'value="1"' in low and "(low)" in low and "(high)" in high
+
+
+def test_serve_warns_when_not_bound_to_loopback(folder, monkeypatch):
+    calls = []
+    monkeypatch.setattr("labelcalc.workbench.server.serve", lambda ws, host, port: calls.append((host, port)))
+    res = CliRunner().invoke(cli_app, ["serve", str(folder)])
+    assert res.exit_code == 0 and "WARNING" not in res.output and calls[-1] == ("127.0.0.1", 8765)
+    res = CliRunner().invoke(cli_app, ["serve", str(folder), "--host", "0.0.0.0", "--port", "9000"])
+    assert res.exit_code == 0 and "WARNING: listening on 0.0.0.0" in res.output and calls[-1] == ("0.0.0.0", 9000)
+
+
+def test_an_edit_that_cannot_keep_a_comment_says_so_plainly(client, folder):
+    # ruamel.yaml keeps comments except inside a flow mapping split over lines: the workbench must say so
+    text = _state(folder)["yaml"].replace(
+        'serving: {size: 28 g, household: "about 14 crisps"}',
+        'serving: {size: 28 g,  # weighed on the line\n    household: "about 14 crisps"}',
+    )
+    body = {**_state(folder), "yaml": text, "source": "form", "fields": {"product.serving.size": "30 g"}}
+    j = client.post("/api/update", json=body).json()
+    assert "size: 30 g" in j["yaml"]
+    assert "1 comment(s) could not be kept" in j["notice"]
+    (folder / KETTLE).write_text(text, encoding="utf-8")
+    r = client.post("/api/save", json={**_state(folder), "yaml": j["yaml"]})
+    assert "1 comment(s) of the file on disk are not in the saved text" in r.json()["message"]

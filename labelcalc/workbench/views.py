@@ -237,7 +237,7 @@ def chart(ws: Workspace, st: State, comp: Computed, cache: dict | None = None) -
         return None
     lo, hi = min(values), max(values)
     lo, hi = (lo - 1, hi + 1) if hi - lo < 1e-9 else (lo, hi)
-    W, H, L, B, T = 520.0, 220.0, 48.0, 28.0, 12.0
+    W, H, L, B, T = 520.0, 232.0, 48.0, 28.0, 24.0
     R = 150.0  # room for the legend
 
     def x(level: float) -> float:

@@ -33,6 +33,8 @@ class Workspace:
     rules: Path | None = None
     markets: list[str] = field(default_factory=lambda: ["us", "eu"])
     _libraries: dict = field(default_factory=dict, repr=False)
+    _index: FormulaIndex | None = field(default=None, repr=False)
+    _index_key: tuple = field(default=(), repr=False)
 
     @classmethod
     def open(cls, target: Path, **kw) -> Workspace:
@@ -67,7 +69,13 @@ class Workspace:
         return p.resolve().relative_to(self.root).as_posix()
 
     def index(self) -> FormulaIndex:
-        return FormulaIndex([self.root])
+        """Formula files by id in the folder, read again only when a YAML file was added, removed or changed."""
+        files = sorted(p for p in self.root.rglob("*.y*ml") if p.suffix in (".yaml", ".yml"))
+        key = tuple((str(p), p.stat().st_mtime_ns) for p in files if p.is_file())
+        if self._index_key != key:
+            self._index, self._index_key = FormulaIndex([self.root]), key
+        assert self._index is not None
+        return self._index
 
     def products(self) -> list[dict]:
         """The products in the folder (or the one opened file): relative path, id and name."""
