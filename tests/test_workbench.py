@@ -270,3 +270,31 @@ def test_an_edit_that_cannot_keep_a_comment_says_so_plainly(client, folder):
     (folder / KETTLE).write_text(text, encoding="utf-8")
     r = client.post("/api/save", json={**_state(folder), "yaml": j["yaml"]})
     assert "1 comment(s) of the file on disk are not in the saved text" in r.json()["message"]
+
+
+@pytest.mark.parametrize(
+    "raw",
+    [
+        b"{not json",
+        b"[1, 2]",
+        b'{"path": "hl_kettle_sea_salt.yaml", "yaml": "x: 1", "scenario": "high", "level": "NaN"}',
+    ],
+)
+def test_malformed_requests_get_a_clear_answer(client, raw):
+    r = client.post("/api/update", content=raw, headers={"content-type": "application/json"})
+    assert r.status_code in (200, 400)
+    j = r.json()
+    assert j.get("error") or j.get("problems")
+
+
+def test_a_file_that_is_not_utf8_is_a_clear_message(client, folder):
+    (folder / "latin.yaml").write_bytes(b"product: {id: caf\xe9}\n")
+    r = client.get("/product", params={"path": "latin.yaml"})
+    assert r.status_code == 400 and "not UTF-8" in r.text
+
+
+def test_export_refuses_an_output_folder_linked_outside(client, folder, tmp_path):
+    (tmp_path / "elsewhere").mkdir()
+    (folder / "labelcalc-out").symlink_to(tmp_path / "elsewhere")
+    r = client.post("/api/export", json=_state(folder))
+    assert r.status_code == 403 and not list((tmp_path / "elsewhere").iterdir())

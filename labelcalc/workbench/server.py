@@ -23,10 +23,10 @@ from starlette.staticfiles import StaticFiles
 
 from labelcalc import __version__
 from labelcalc.errors import InputError, LabelError, Problem
-from labelcalc.files import atomic_write, inside
+from labelcalc.files import atomic_write
 from labelcalc.outputs.panelrun import panels_for
 from labelcalc.workbench.editing import apply_fields, comment_count, form_fields, load_rt
-from labelcalc.workbench.views import State, chart, choices, compute, page_data, trace
+from labelcalc.workbench.views import State, chart, choices, compute, number, page_data, trace
 from labelcalc.workbench.workspace import OutsideFolder, Workspace
 
 STATIC = Path(__file__).parent / "static"
@@ -60,7 +60,10 @@ def create_app(ws: Workspace, *, host: str = "127.0.0.1") -> Starlette:
     async def body_of(request: Request) -> dict:
         if request.headers.get("content-type", "").split(";")[0].strip() != "application/json":
             raise InputError(Problem("requests must be JSON"))
-        data = await request.json()
+        try:
+            data = await request.json()
+        except ValueError:
+            raise InputError(Problem("the request is not valid JSON")) from None
         if not isinstance(data, dict):
             raise InputError(Problem("requests must be a JSON object"))
         return data
@@ -71,7 +74,7 @@ def create_app(ws: Workspace, *, host: str = "127.0.0.1") -> Starlette:
     async def product(request: Request) -> Response:
         rel = request.query_params.get("path", "")
         path = ws.formula_path(rel)
-        text = path.read_text(encoding="utf-8")
+        text = ws.read_text(path)
         st = State(ws.rel(path), text, list(ws.markets))
         comp = compute(ws, st)
         return HTMLResponse(
@@ -152,7 +155,7 @@ def create_app(ws: Workspace, *, host: str = "127.0.0.1") -> Starlette:
         t = trace(
             comp,
             str(body.get("market")),
-            int(body.get("scenario_index") or 0),
+            int(number(body.get("scenario_index"))),
             str(body.get("nutrient")),
             str(body.get("basis")),
         )
@@ -165,7 +168,7 @@ def create_app(ws: Workspace, *, host: str = "127.0.0.1") -> Starlette:
         path = ws.formula_path(st.path)
         load_rt(st.text, st.path)
         comp = compute(ws, st)
-        lost = comment_count(path.read_text(encoding="utf-8")) - comment_count(st.text)
+        lost = comment_count(ws.read_text(path)) - comment_count(st.text)
 
         def write(tmp: Path) -> None:
             tmp.write_text(st.text, encoding="utf-8")
@@ -183,15 +186,16 @@ def create_app(ws: Workspace, *, host: str = "127.0.0.1") -> Starlette:
         body = await body_of(request)
         st = State.from_json(body, ws.markets)
         path = ws.formula_path(st.path)
-        if path.read_text(encoding="utf-8") != st.text:
+        if ws.read_text(path) != st.text:
             raise InputError(Problem("the formula has unsaved changes", file=st.path, fix="save it first, then export"))
         comp = compute(ws, st)
         if comp.problems:
             raise InputError(comp.problems)
         assert comp.library is not None and comp.formula is not None
         out = ws.root / OUT_FOLDER
+        if not out.resolve().is_relative_to(ws.root):  # e.g. labelcalc-out is a link to another place
+            raise OutsideFolder(OUT_FOLDER)
         out.mkdir(parents=True, exist_ok=True)
-        inside(ws.root / "labelcalc-out", "workbench")  # the output folder stays inside the opened folder
         files, failures = panels_for(
             path, comp.library, ws.packs(st.markets), out, _date.today().isoformat(), comp.reference
         )
@@ -215,6 +219,13 @@ def create_app(ws: Workspace, *, host: str = "127.0.0.1") -> Starlette:
             return JSONResponse({"error": msg}, status_code=403)
         return HTMLResponse(render("error.html", message=msg), status_code=403)
 
+    async def unexpected(request: Request, exc: Exception) -> Response:
+        """A fault of labelcalc itself, not of the input: one line, no traceback in the page."""
+        msg = f"labelcalc could not work this out ({type(exc).__name__}: {exc}); please report it with the formula"
+        if "application/json" in request.headers.get("content-type", ""):
+            return JSONResponse({"error": msg}, status_code=500)
+        return HTMLResponse(render("error.html", message=msg), status_code=500)
+
     hosts = ["127.0.0.1", "localhost", "::1", "testserver"] if is_loopback(host) else ["*"]
     return Starlette(
         routes=[
@@ -227,7 +238,7 @@ def create_app(ws: Workspace, *, host: str = "127.0.0.1") -> Starlette:
             Mount("/static", StaticFiles(directory=STATIC), name="static"),
         ],
         middleware=[Middleware(TrustedHostMiddleware, allowed_hosts=hosts)],
-        exception_handlers={LabelError: label_error, OutsideFolder: outside},
+        exception_handlers={LabelError: label_error, OutsideFolder: outside, Exception: unexpected},
     )
 
 

@@ -26,6 +26,15 @@ from labelcalc.workbench.workspace import Workspace
 SWEEP_LEVELS = [float(x) for x in range(0, 101, 10)]
 
 
+def number(v) -> float:
+    """A number sent by the page; anything else (missing, text, NaN) counts as 0."""
+    try:
+        x = float(v)
+    except (TypeError, ValueError):
+        return 0.0
+    return x if math.isfinite(x) else 0.0
+
+
 @dataclass
 class State:
     path: str
@@ -38,15 +47,13 @@ class State:
 
     @classmethod
     def from_json(cls, body: dict, default_markets: list[str]) -> State:
-        try:
-            level = float(body.get("level") or 0)
-        except (TypeError, ValueError):
-            level = 0.0
+        level = number(body.get("level"))
+        markets = body.get("markets")
         return cls(
             path=str(body.get("path") or ""),
             text=str(body.get("yaml") or ""),
-            markets=[str(m) for m in (body.get("markets") or default_markets)],
-            scenario=int(body.get("scenario") or 0),
+            markets=[str(m) for m in markets] if isinstance(markets, list) and markets else list(default_markets),
+            scenario=max(0, int(number(body.get("scenario")))),
             replace=str(body.get("replace") or ""),
             with_=str(body.get("with") or ""),
             level=min(100.0, max(0.0, level)),

@@ -19,6 +19,15 @@ from labelcalc.intake.yamlsafe import parse_yaml_text
 from labelcalc.labelling.rulepack import RulePack, get_packs, load_packs
 
 
+def load_text(p: Path, shown: str) -> str:
+    try:
+        return p.read_text(encoding="utf-8")
+    except UnicodeDecodeError:
+        raise InputError(Problem("file is not UTF-8 text", file=shown, fix="save it as UTF-8")) from None
+    except OSError as exc:
+        raise InputError(Problem(f"cannot read file: {exc.strerror}", file=shown)) from None
+
+
 class OutsideFolder(PermissionError):
     """A path that is not inside the opened folder."""
 
@@ -64,6 +73,10 @@ class Workspace:
         if p.suffix not in (".yaml", ".yml"):
             raise InputError(Problem("not a formula file (.yaml or .yml)", file=rel))
         return p
+
+    def read_text(self, p: Path) -> str:
+        """A text file of the folder; unreadable or non-UTF-8 files are the CLI's clear messages."""
+        return load_text(p, self.rel(p))
 
     def rel(self, p: Path) -> str:
         return p.resolve().relative_to(self.root).as_posix()
