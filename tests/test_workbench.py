@@ -298,3 +298,15 @@ def test_export_refuses_an_output_folder_linked_outside(client, folder, tmp_path
     (folder / "labelcalc-out").symlink_to(tmp_path / "elsewhere")
     r = client.post("/api/export", json=_state(folder))
     assert r.status_code == 403 and not list((tmp_path / "elsewhere").iterdir())
+
+
+@pytest.mark.parametrize("product", sorted(p.name for p in DEMO.glob("*.yaml")))
+def test_every_demo_product_shows_a_panel_for_every_market(folder, product):
+    codes = sorted(load_packs())
+    c = TestClient(create_app(Workspace.open(folder, markets=codes)))
+    r = c.get("/product", params={"path": product})
+    assert r.status_code == 200
+    for code in codes:
+        assert '<figure class="panel' in r.text and f'data-market="{code}"' in r.text
+        assert re.search(rf'class="fig" data-market="{code}"', r.text), f"no figure in the {code} panel"
+    assert "Pre-flight checks" in r.text

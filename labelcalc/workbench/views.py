@@ -19,6 +19,7 @@ from labelcalc.intake.library import Library
 from labelcalc.labelling.assess import Assessment, assess_against
 from labelcalc.labelling.declare import BASIS_LABEL, display_unit
 from labelcalc.outputs.calcsheet import calculation_rows
+from labelcalc.outputs.preflight import run_checks
 from labelcalc.whatif.explore import substitute, sweep
 from labelcalc.workbench.panelhtml import panel_view
 from labelcalc.workbench.workspace import Workspace
@@ -161,7 +162,10 @@ def page_data(ws: Workspace, st: State, comp: Computed) -> dict:
         "composition": composition_rows(comp.comps[i]),
         "serving_g": comp.comps[i].formula.serving_grams(),
         "energy": energy_rows(items),
-        "markets": [{"a": a, "panel": panel_view(a.declaration)} for a in items],
+        "markets": [
+            {"a": a, "panel": panel_view(a.declaration), "failed_checks": [c for c in run_checks(a) if not c.ok]}
+            for a in items
+        ],
     }
 
 
