@@ -102,7 +102,7 @@ def create_app(ws: Workspace, *, host: str = "127.0.0.1") -> Starlette:
         return {
             "form_html": render("form.html", fields=fields, errors=fmap, general=general),
             "results_html": render("results.html", st=st, data=page_data(ws, st, comp)),
-            "chart_html": render("chart.html", chart=_chart_or_problem(st, comp)),
+            "chart_html": render("chart.html", chart=_chart_or_problem(st, comp), replacing=st.replacing),
         }
 
     def _chart_or_problem(st: State, comp):
