@@ -16,10 +16,10 @@ from labelcalc.formulation import components as C
 from labelcalc.formulation.composition import Composition, compose
 from labelcalc.intake.formula import Formula
 from labelcalc.intake.library import Library
-from labelcalc.labelling.assess import Assessment, assess_against
-from labelcalc.labelling.declare import BASIS_LABEL, display_unit
-from labelcalc.outputs.calcsheet import calculation_rows
-from labelcalc.outputs.preflight import run_checks
+from labelcalc.labelling.assess import assess_against
+from labelcalc.labelling.checks import run_checks
+from labelcalc.labelling.engine import display_unit
+from labelcalc.labelling.record import BASIS_LABEL, Assessment
 from labelcalc.whatif.explore import substitute, sweep
 from labelcalc.workbench.panelhtml import panel_view
 from labelcalc.workbench.workspace import Workspace
@@ -170,10 +170,10 @@ def page_data(ws: Workspace, st: State, comp: Computed) -> dict:
 
 
 def trace(comp: Computed, market: str, scenario: int, nutrient: str, basis: str) -> dict:
-    """Where one declared figure comes from, read from the calculation sheet's rows of the label
-    (:func:`labelcalc.outputs.calcsheet.calculation_rows`, the same trace the sheet prints): the unrounded value,
-    the rounding band applied, the percentage, unknown inputs, sources, and a list of contribution lines (today
-    the composition's batch lines and processing steps; a richer record adds lines the view shows the same way)."""
+    """Where one declared figure comes from, read from the label record's trace (the same trace the calculation
+    sheet prints): the unrounded value, the rounding band applied, the percentage, unknown inputs, sources, the
+    energy factors, and one contribution line per leaf ingredient or processing effect with its route through
+    sub-formulas and the library source of its values."""
     a = comp.assessments.get((market, scenario))
     if a is None:
         raise LabelError(Problem(f"no label for market '{market}' and scenario {scenario} in this view"))
@@ -182,20 +182,22 @@ def trace(comp: Computed, market: str, scenario: int, nutrient: str, basis: str)
         row = d.row(nutrient)
     except KeyError:
         raise LabelError(Problem(f"the '{market}' panel has no row '{nutrient}'")) from None
-    sheet = calculation_rows(a)
-    column = basis.replace("_", " ")
-    figure = next(
-        (x for x in sheet if x["kind"] == "figure" and x["nutrient"] == nutrient and x["column"] == column), None
-    )
-    nd = d.pack.nutrients[nutrient]
-    if nd.energy:
-        how = f"energy from the factor set '{d.declared_energy.factor_set.factor_set.title}'"
-    else:
-        how = " + ".join(f"{f:g} × {k}" if f != 1 else k for k, f in (nd.sum or {}).items())
+    rec = d.record
+    entry = next((r for r in rec.trace["rows"] if r["nutrient"] == nutrient), None) if rec is not None else None
+    if entry is None:
+        raise LabelError(Problem(f"the '{market}' label has no trace for '{nutrient}' (the row is not shown)"))
+    col = entry["columns"].get(basis)
+    pct = (col or {}).get("percent")
     lines = [
-        {"path": [x["line"]], "value": x["value"], "source": x.get("source", "")}
-        for x in sheet
-        if x["kind"] == "contribution" and x["nutrient"] == nutrient
+        {
+            "path": [p for p in ln["route"].split(" > ") if p] + [ln["ingredient"]],
+            "kind": ln["kind"],
+            "grams": _num(ln["grams_per_100g"], 3),
+            "value": "unknown" if ln["amount"] is None else f"{_num(ln['amount'], 4)} {display_unit(ln['unit'])}",
+            "sources": sorted(set(ln["sources"].values())),
+        }
+        for ln in entry["lines"]
+        if ln["amount"] != 0
     ]
     return {
         "market": market,
@@ -205,16 +207,18 @@ def trace(comp: Computed, market: str, scenario: int, nutrient: str, basis: str)
         "unit": display_unit(row.unit),
         "basis": basis,
         "basis_label": BASIS_LABEL.get(basis, basis),
-        "declared": figure["declared"] if figure else "not printed in this column",
-        "unrounded": {BASIS_LABEL.get(b, b): _num(v, 4) for b, v in row.unrounded.items()},
-        "rounding": figure["rounding"] if figure else "",
-        "percent": figure["percent"] if figure else "",
-        "unknown_inputs": row.unknown_inputs,
-        "sources": row.source,
-        "how": how,
+        "declared": col["declared"] if col else "not printed in this column",
+        "unrounded": {BASIS_LABEL.get(b, b): _num(c["unrounded"], 4) for b, c in entry["columns"].items()},
+        "rounding": (col or {}).get("rounding") or "",
+        "rounding_citation": (col or {}).get("rounding_citation") or "",
+        "percent": pct,
+        "unknown_inputs": entry["unknown_inputs"],
+        "sources": entry["citations"],
+        "how": entry.get("definition", ""),
+        "factors": entry.get("factors", []),
         "why_shown": row.why,
         "lines": lines,
-        "total_per_100g": _num(row.value_per_100g, 4),
+        "total_per_100g": _num(entry["unrounded_per_100g"], 4),
     }
 
 
