@@ -163,7 +163,7 @@ def page_data(ws: Workspace, st: State, comp: Computed) -> dict:
         "serving_g": comp.comps[i].formula.serving_grams(),
         "energy": energy_rows(items),
         "markets": [
-            {"a": a, "panel": panel_view(a.declaration), "failed_checks": [c for c in run_checks(a) if not c.ok]}
+            {"a": a, "panel": panel_view(a.declaration), "failed_checks": [c for c in _checks(a) if not c.ok]}
             for a in items
         ],
     }
@@ -298,3 +298,9 @@ def _sub_ids(f: Formula) -> set[str]:
     for sub in f.sub_formulas():
         out |= {sub.id} | _sub_ids(sub)
     return out
+
+
+def _checks(a: Assessment) -> list:
+    """The label's consistency checks (the record carries them; the PDF draft prints the same)."""
+    rec = a.declaration.record
+    return rec.checks if rec is not None else run_checks(a)
