@@ -1,6 +1,6 @@
 """A market's nutrition panel as HTML data, from the same declaration rows and ``panel.layout`` as the PDF.
 
-This reads :class:`~labelcalc.labelling.record.Declaration` exactly as the PDF renderer does: the shown rows in
+This reads :class:`~labelcalc.labelling.model.Declaration` exactly as the PDF renderer does: the shown rows in
 the pack's order, the columns the serving rules chose, the percent column(s) the pack names, the layout's style
 (boxed facts panel or ruled table), width, type sizes, heavy rules, header note, serving lines and footnotes.
 It draws nothing itself: the ``panel.html`` template turns the data into markup, sized in mm and pt so the
@@ -12,7 +12,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-from labelcalc.labelling.record import BASIS_LABEL, Declaration
+from labelcalc.labelling.model import BASIS_LABEL, Declaration
 
 
 @dataclass

@@ -11,15 +11,15 @@ import math
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from labelcalc import components as C
 from labelcalc.errors import LabelError, Problem
-from labelcalc.formulation import components as C
 from labelcalc.formulation.composition import Composition, compose
 from labelcalc.intake.formula import Formula
 from labelcalc.intake.library import Library
 from labelcalc.labelling.assess import assess_against
 from labelcalc.labelling.checks import run_checks
 from labelcalc.labelling.engine import display_unit
-from labelcalc.labelling.record import BASIS_LABEL, Assessment
+from labelcalc.labelling.model import BASIS_LABEL, Assessment
 from labelcalc.whatif.explore import substitute, sweep
 from labelcalc.workbench.panelhtml import panel_view
 from labelcalc.workbench.workspace import Workspace
