@@ -310,3 +310,18 @@ def test_every_demo_product_shows_a_panel_for_every_market(folder, product):
         assert '<figure class="panel' in r.text and f'data-market="{code}"' in r.text
         assert re.search(rf'class="fig" data-market="{code}"', r.text), f"no figure in the {code} panel"
     assert "Pre-flight checks" in r.text
+
+
+@pytest.mark.parametrize(
+    "base, ok",
+    [
+        ("http://127.0.0.1:8765", True),
+        ("http://localhost:8765", True),
+        ("http://[::1]:8765", True),
+        ("http://127.0.0.1.attacker.example:8765", False),
+        ("http://[fe80::1]:8765", False),
+    ],
+)
+def test_host_header_must_be_loopback(folder, base, ok):
+    c = TestClient(create_app(Workspace.open(folder), host="::1"), base_url=base)
+    assert (c.get("/").status_code == 200) is ok

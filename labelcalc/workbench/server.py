@@ -15,11 +15,11 @@ from pathlib import Path
 from jinja2 import Environment, PackageLoader, select_autoescape
 from starlette.applications import Starlette
 from starlette.middleware import Middleware
-from starlette.middleware.trustedhost import TrustedHostMiddleware
 from starlette.requests import Request
-from starlette.responses import HTMLResponse, JSONResponse, Response
+from starlette.responses import HTMLResponse, JSONResponse, PlainTextResponse, Response
 from starlette.routing import Mount, Route
 from starlette.staticfiles import StaticFiles
+from starlette.types import ASGIApp, Receive, Scope, Send
 
 from labelcalc import __version__
 from labelcalc.errors import InputError, LabelError, Problem
@@ -46,6 +46,33 @@ def is_loopback(host: str) -> bool:
         return ipaddress.ip_address(host).is_loopback
     except ValueError:
         return False
+
+
+def host_of(header: str) -> str:
+    """The host name of a Host header without its port: '[::1]:8765' -> '::1', 'localhost:80' -> 'localhost'."""
+    if header.startswith("["):
+        return header[1 : header.find("]")] if "]" in header else header
+    return header.rsplit(":", 1)[0] if header.count(":") == 1 else header
+
+
+class LoopbackHostOnly:
+    """Refuse requests whose Host header is not a loopback name or address, so a web page whose domain is made to
+    resolve to 127.0.0.1 (DNS rebinding) cannot talk to the workbench.  Starlette's TrustedHostMiddleware is not
+    used because it cuts an IPv6 literal such as '[::1]:8765' at its first colon."""
+
+    def __init__(self, app: ASGIApp) -> None:
+        self.app = app
+
+    async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
+        if scope["type"] in ("http", "websocket"):
+            headers = dict(scope.get("headers") or [])
+            name = host_of(headers.get(b"host", b"").decode("latin-1"))
+            if not (is_loopback(name) or name == "testserver"):
+                await PlainTextResponse("the workbench answers only on this computer's loopback address", 400)(
+                    scope, receive, send
+                )
+                return
+        await self.app(scope, receive, send)
 
 
 def _problems_json(problems: list[Problem]) -> list[dict]:
@@ -226,7 +253,6 @@ def create_app(ws: Workspace, *, host: str = "127.0.0.1") -> Starlette:
             return JSONResponse({"error": msg}, status_code=500)
         return HTMLResponse(render("error.html", message=msg), status_code=500)
 
-    hosts = ["127.0.0.1", "localhost", "::1", "testserver"] if is_loopback(host) else ["*"]
     return Starlette(
         routes=[
             Route("/", index),
@@ -237,7 +263,7 @@ def create_app(ws: Workspace, *, host: str = "127.0.0.1") -> Starlette:
             Route("/api/export", export, methods=["POST"]),
             Mount("/static", StaticFiles(directory=STATIC), name="static"),
         ],
-        middleware=[Middleware(TrustedHostMiddleware, allowed_hosts=hosts)],
+        middleware=[Middleware(LoopbackHostOnly)] if is_loopback(host) else [],
         exception_handlers={LabelError: label_error, OutsideFolder: outside, Exception: unexpected},
     )
 
