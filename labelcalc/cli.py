@@ -888,6 +888,34 @@ def rules_check(file: Path = typer.Argument(..., help="A rule pack file or a fol
         typer.echo(f"ok: {p.pack.name} ({p.market}), {len(p.rows)} rows")
 
 
+@app.command("serve")
+@friendly
+def serve_cmd(
+    folder: Path = typer.Argument(Path("."), help="A folder of formula files, or one formula file."),
+    market: str = MarketOpt,
+    library: Path | None = LibraryOpt,
+    rules: Path | None = RulesOpt,
+    host: str = typer.Option("127.0.0.1", "--host", help="Address to listen on (default: this computer only)."),
+    port: int = typer.Option(8765, "--port", help="Port to listen on."),
+):
+    """A local workbench in the browser: edit a formula and see every chosen market's label change."""
+    from labelcalc.workbench.server import is_loopback, serve
+    from labelcalc.workbench.workspace import Workspace
+
+    ws = Workspace.open(folder, library_path=library, rules=rules, markets=market.split(","))
+    ws.packs()  # an unknown market code is reported before the server starts
+    if not is_loopback(host):
+        typer.echo(
+            f"WARNING: listening on {host}: anyone who can reach this address can read and change the formula files in "
+            f"{ws.root}. Use the default 127.0.0.1 unless you mean this.",
+            err=True,
+        )
+    shown = f"[{host}]" if ":" in host else host
+    typer.echo(f"labelcalc workbench for {ws.root} at http://{shown}:{port}/ (Ctrl+C stops it)")
+    typer.echo("DRAFT: verify against current local regulation with a qualified regulatory professional.")
+    serve(ws, host, port)
+
+
 @app.command("schema")
 @friendly
 def schema_cmd(
