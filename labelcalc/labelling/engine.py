@@ -95,8 +95,8 @@ class ClaimResult:
     conditions: list[CondResult]
     alternatives: list[list[CondResult]]
     applies: np.ndarray
-    banned: list[list[str]]  # ingredients of a kind that fails the claim, per product
-    flagged: list[list[str]]  # ingredients of a kind the claim allows only as its rule permits
+    banned: dict[int, list[str]]  # product -> ingredients of a kind that fails the claim
+    flagged: dict[int, list[str]]  # product -> ingredients of a kind the claim allows only as its rule permits
     reference_qualifies: np.ndarray  # the reference food itself qualifies for reference_must_not_qualify
     verdict: np.ndarray  # VERDICT_*
 
@@ -166,7 +166,8 @@ class LabelEngine:
             ],
             dtype=bool,
         )
-        self.liquid = np.array([c.formula.header.form == "liquid" for c in ok], dtype=bool)
+        self.forms = np.array([c.formula.header.form for c in ok], dtype=object)
+        self.liquid = self.forms == "liquid"
         self.density = np.array([c.formula.header.density_g_per_ml or np.nan for c in ok])
         self.has_reference = np.array([r is not None for r in refs], dtype=bool)
         self._references = refs
@@ -197,15 +198,22 @@ class LabelEngine:
         """Kinds of the ingredients each product uses (through sub-formulas)."""
         return [{k for i in f.ingredients_used() for k in i.kinds} for f in self.products]
 
-    def ingredients_of_kinds(self, kinds: list[str]) -> list[list[str]]:
-        """Per product, the ingredients (ids, sorted) of any of ``kinds``."""
+    @cached_property
+    def products_by_kind(self) -> dict[str, list[int]]:
+        """Which products use an ingredient of each kind."""
+        out: dict[str, list[int]] = {}
+        for i, ks in enumerate(self.kinds):
+            for k in ks:
+                out.setdefault(k, []).append(i)
+        return out
+
+    def ingredients_of_kinds(self, kinds: list[str]) -> dict[int, list[str]]:
+        """The ingredients (ids, sorted) of any of ``kinds``, for each product that uses one."""
         want = set(kinds)
-        if not want:
-            return [[] for _ in range(self.n)]
-        return [
-            sorted(i.id for i in f.ingredients_used() if set(i.kinds) & want) if self.kinds[k] & want else []
-            for k, f in enumerate(self.products)
-        ]
+        return {
+            i: sorted(ing.id for ing in self.products[i].ingredients_used() if set(ing.kinds) & want)
+            for i in sorted({i for k in want for i in self.products_by_kind.get(k, [])})
+        }
 
     @cached_property
     def as_lists(self) -> dict[str, Any]:
@@ -508,7 +516,7 @@ class LabelEngine:
         ref_rows = self.reference_rows()
         for cl in self.pack.claims:
             n = self.n
-            applies = np.array([cl.applies_to in ("any", f.header.form) for f in self.products], dtype=bool)
+            applies = np.ones(n, dtype=bool) if cl.applies_to == "any" else (self.forms == cl.applies_to)
             conds = [self.condition(c) for c in cl.conditions]
             failed = ~applies.copy()
             missing = np.zeros(n, dtype=bool)
@@ -528,7 +536,8 @@ class LabelEngine:
                 missing |= ~any_group & undecided
                 failed |= ~any_group & ~undecided
             banned = self.ingredients_of_kinds(cl.fails_with_ingredient_kinds)
-            failed |= np.array([bool(b) for b in banned], dtype=bool)
+            if banned:
+                failed[list(banned)] = True
             flagged = self.ingredients_of_kinds(cl.no_ingredient_kinds)
             ref_q = np.zeros(n, dtype=bool)
             if cl.reference_must_not_qualify and cl.reference_must_not_qualify in by_id and self.reference_engine:

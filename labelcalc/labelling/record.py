@@ -295,14 +295,15 @@ def claim_verdicts(eng: E.LabelEngine, i: int) -> list[ClaimVerdict]:
                     failed.append(
                         "no alternative holds: " + " | ".join("; ".join(r[2] for r in g if not r[0]) for g in groups)
                     )
-        if cr.flagged[i]:
+        if cr.flagged.get(i):
             notes.append(
-                f"uses {', '.join(cr.flagged[i])} ({'/'.join(cl.no_ingredient_kinds)}): allowed only as the claim's "
+                f"uses {', '.join(cr.flagged.get(i, []))} ({'/'.join(cl.no_ingredient_kinds)}): allowed only as the claim's "
                 "rule permits (e.g. a footnote in the ingredient list) — review"
             )
-        if cr.banned[i]:
+        if cr.banned.get(i):
             failed.append(
-                f"an ingredient of kind {'/'.join(cl.fails_with_ingredient_kinds)} is added: " + ", ".join(cr.banned[i])
+                f"an ingredient of kind {'/'.join(cl.fails_with_ingredient_kinds)} is added: "
+                + ", ".join(cr.banned.get(i, []))
             )
         if cr.reference_qualifies[i]:
             failed.append(f"the reference food itself qualifies for '{cl.reference_must_not_qualify}'")
