@@ -966,7 +966,10 @@ def library_search(
 def library_from_table(
     database: str = DatabaseArg,
     table: Path = TableArg,
-    food: list[str] = typer.Option(..., "--food", "-f", help="A food id, or ID=INGREDIENT_ID; repeat for each food."),
+    food: list[str] = typer.Option([], "--food", "-f", help="A food id, or ID=INGREDIENT_ID; repeat for each food."),
+    name: list[str] = typer.Option(
+        [], "--name", "-n", help="'WORDS=INGREDIENT_ID': the one food whose name holds every word (refused if several)."
+    ),
     out: Path = typer.Option(..., "--out", "-o", help="Library file (YAML) to write."),
     in_place: bool = typer.Option(
         False, "--in-place", help="Write references that read the table each time, instead of copying its values."
@@ -976,12 +979,16 @@ def library_from_table(
     """Write an ingredient library file from chosen foods; every value carries its source."""
     import os
 
+    from labelcalc.errors import InputError, Problem
     from labelcalc.files import atomic_write
     from labelcalc.tables import read_table
-    from labelcalc.tables.library import library_text
+    from labelcalc.tables.library import find_one, library_text
 
     t = read_table(database, table, release)
     picks = [(f.split("=", 1)[0], f.split("=", 1)[1] if "=" in f else None) for f in food]
+    picks += [(find_one(t, n.rsplit("=", 1)[0]), n.rsplit("=", 1)[1] if "=" in n else None) for n in name]
+    if not picks:
+        raise InputError(Problem("no food chosen", fix="give --food ID=KEY or --name 'WORDS=KEY' (see library search)"))
     rel = os.path.relpath(table.resolve(), out.resolve().parent) if in_place else None
     text = library_text(t, picks, in_place=in_place, table_path=rel)
     out.parent.mkdir(parents=True, exist_ok=True)

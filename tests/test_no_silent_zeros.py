@@ -216,3 +216,12 @@ def test_from_table_reference_errors_name_the_entry(tmp_path):
     text = str(exc.value)
     assert "field 'oats.from_table'" in text and "food '999' is not in this table" in text
     assert "field 'bad.from_table'" in text and "path" in text
+
+
+def test_library_from_table_picks_by_name_only_when_one_food_matches(tmp_path):
+    out = tmp_path / "lib.yaml"
+    res = runner.invoke(app, ["library", "from-table", "fdc", str(FDC), "-n", "salt table=salt", "-o", str(out)])
+    assert res.exit_code == 0, res.output
+    assert "food 173468" in out.read_text()
+    res = runner.invoke(app, ["library", "from-table", "fdc", str(FDC), "-n", "a=x", "-o", str(out)])
+    assert res.exit_code == 2 and "foods match 'a'" in res.output and "pick one by id" in res.output

@@ -37,6 +37,23 @@ class TableReference(BaseModel):
     release: str | None = Field(None, description="release to name in every source (default: from the download)")
 
 
+def find_one(table: FoodTable, words: str) -> str:
+    """The id of the one food whose name holds every word; an error listing the candidates otherwise
+    (never a guess between several foods)."""
+    found = table.search(words, limit=6)
+    if len(found) == 1:
+        return str(found.index[0])
+    if found.empty:
+        raise InputError(Problem(f"no food of {table.database} matches '{words}'", fix="try fewer or other words"))
+    shown = "; ".join(f"{i} {n}" for i, n in zip(found.index[:5], found["name"][:5]))
+    raise InputError(
+        Problem(
+            f"{len(found)}{'+' if len(found) > 5 else ''} foods match '{words}': {shown}",
+            fix="pick one by id: -f ID=KEY",
+        )
+    )
+
+
 def from_reference(ref: dict, base: Path) -> tuple[dict, list[str]]:
     """The table's entry for ``from_table: {database, path, food, release}`` (path relative to ``base``)."""
     try:
