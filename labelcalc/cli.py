@@ -34,6 +34,11 @@ app = typer.Typer(
 )
 rules_app = typer.Typer(no_args_is_help=True, help="List, show and check the market rule packs.")
 app.add_typer(rules_app, name="rules")
+library_app = typer.Typer(
+    no_args_is_help=True,
+    help="Ingredient libraries from public food-composition tables (fdc, cofid, cnf, afcd, ciqual).",
+)
+app.add_typer(library_app, name="library")
 
 LibraryOpt = typer.Option(
     None,
@@ -134,6 +139,22 @@ def compose_document(formula, comps) -> dict:
             }
         )
     return {
+        "ingredient_values": {
+            ing.id: {
+                "source": ing.source,
+                "nitrogen_factor": ing.nitrogen_factor,
+                "per_100g": {
+                    k: {"value": v, "unit": C.unit_of(k), "source": src, "basis": basis}
+                    for k, (v, src, basis) in ing.provenance().items()
+                },
+            }
+            for ing in formula.ingredients_used()
+        },
+        "assumed_zero": [
+            {"ingredient": ing, "components": parts, "reason": reason} for ing, parts, reason in comps[0].assumptions
+        ]
+        if comps
+        else [],
         "product": {
             "id": formula.id,
             "name": formula.header.name,
@@ -916,6 +937,78 @@ def serve_cmd(
     serve(ws, host, port)
 
 
+DatabaseArg = typer.Argument(..., help="Database: fdc, cofid, cnf, afcd or ciqual.")
+TableArg = typer.Argument(..., help="The downloaded table: a folder of its CSV/XML files, or its workbook.")
+ReleaseOpt = typer.Option(None, "--release", help="Release to name in every source (default: from the download).")
+
+
+@library_app.command("search")
+@friendly
+def library_search(
+    database: str = DatabaseArg,
+    table: Path = TableArg,
+    words: str = typer.Argument(..., help="Words that must all appear in the food's name."),
+    limit: int = typer.Option(20, "--limit", help="At most this many foods."),
+    release: str | None = ReleaseOpt,
+):
+    """Foods of a table whose name holds every word, with the id to pick them by."""
+    from labelcalc.tables import read_table
+
+    found = read_table(database, table, release).search(words, limit)
+    if found.empty:
+        typer.echo("no food found; try fewer or other words")
+    for food_id, row in found.iterrows():
+        typer.echo(f"{food_id:>12}  {row['name']}")
+
+
+@library_app.command("from-table")
+@friendly
+def library_from_table(
+    database: str = DatabaseArg,
+    table: Path = TableArg,
+    food: list[str] = typer.Option([], "--food", "-f", help="A food id, or ID=INGREDIENT_ID; repeat for each food."),
+    name: list[str] = typer.Option(
+        [], "--name", "-n", help="'WORDS=INGREDIENT_ID': the one food whose name holds every word (refused if several)."
+    ),
+    out: Path = typer.Option(..., "--out", "-o", help="Library file (YAML) to write."),
+    in_place: bool = typer.Option(
+        False, "--in-place", help="Write references that read the table each time, instead of copying its values."
+    ),
+    release: str | None = ReleaseOpt,
+):
+    """Write an ingredient library file from chosen foods; every value carries its source."""
+    import os
+
+    from labelcalc.errors import InputError, Problem
+    from labelcalc.files import atomic_write
+    from labelcalc.tables import read_table
+    from labelcalc.tables.library import find_one, library_text
+
+    t = read_table(database, table, release)
+    picks = [(f.split("=", 1)[0], f.split("=", 1)[1] if "=" in f else None) for f in food]
+    picks += [(find_one(t, n.rsplit("=", 1)[0]), n.rsplit("=", 1)[1] if "=" in n else None) for n in name]
+    if not picks:
+        raise InputError(Problem("no food chosen", fix="give --food ID=KEY or --name 'WORDS=KEY' (see library search)"))
+    rel = os.path.relpath(table.resolve(), out.resolve().parent) if in_place else None
+    text = library_text(t, picks, in_place=in_place, table_path=rel)
+    out.parent.mkdir(parents=True, exist_ok=True)
+    atomic_write(out, lambda tmp: tmp.write_text(text, encoding="utf-8"))
+    typer.echo(f"wrote {out} ({len(picks)} ingredient(s) from {t.database}, {t.release})")
+
+
+def _entry_schema() -> dict:
+    """A library entry: its own values and source, or a ``from_table`` reference with values on top."""
+    from labelcalc.intake.library import Ingredient
+    from labelcalc.tables.library import TableReference
+
+    entry = Ingredient.model_json_schema()
+    entry["properties"].pop("id", None)
+    entry["properties"]["from_table"] = TableReference.model_json_schema()
+    entry["required"] = [r for r in entry.get("required", []) if r not in ("id", "source")]
+    entry["anyOf"] = [{"required": ["source"]}, {"required": ["from_table"]}]
+    return entry
+
+
 @app.command("schema")
 @friendly
 def schema_cmd(
@@ -923,7 +1016,6 @@ def schema_cmd(
 ):
     """Write JSON Schema files for formula, ingredient library and rule pack files, for editors to validate with."""
     from labelcalc.intake.formula import FormulaFile
-    from labelcalc.intake.library import Ingredient
     from labelcalc.labelling.rulepack import RulePack
 
     out.mkdir(parents=True, exist_ok=True)
@@ -933,7 +1025,7 @@ def schema_cmd(
         "type": "object",
         "properties": {
             "library": {"type": "object"},
-            "ingredients": {"type": "object", "additionalProperties": Ingredient.model_json_schema()},
+            "ingredients": {"type": "object", "additionalProperties": _entry_schema()},
         },
         "required": ["ingredients"],
     }

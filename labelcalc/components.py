@@ -28,12 +28,46 @@ class Component:
         return self.unit == "g" and self.part_of is None
 
 
+#: Minerals beyond sodium, potassium, calcium and iron (plain names shared with the market packs).
+MINERALS = (
+    ("magnesium", "mg"),
+    ("phosphorus", "mg"),
+    ("zinc", "mg"),
+    ("iodine", "ug"),
+    ("selenium", "ug"),
+    ("copper", "mg"),
+    ("manganese", "mg"),
+    ("chromium", "ug"),
+    ("molybdenum", "ug"),
+    ("chloride", "mg"),
+    ("fluoride", "mg"),
+)
+#: Vitamins beyond A, D, E and K, with the basis each value is held in.
+VITAMINS = (
+    ("vitamin_c", "mg", "vitamin C (ascorbic + dehydroascorbic acid) [mg]"),
+    ("thiamin", "mg", "thiamin (vitamin B1) [mg]"),
+    ("riboflavin", "mg", "riboflavin (vitamin B2) [mg]"),
+    ("niacin", "mg", "niacin as niacin equivalents [mg NE] (preformed niacin + tryptophan / 60)"),
+    ("vitamin_b6", "mg", "vitamin B6 [mg]"),
+    ("folate", "ug", "folate as dietary folate equivalents [ug DFE] (food folate + 1.7 x folic acid)"),
+    ("vitamin_b12", "ug", "vitamin B12 [ug]"),
+    ("biotin", "ug", "biotin [ug]"),
+    ("pantothenic_acid", "mg", "pantothenic acid [mg]"),
+)
+
 POLYOLS = ("sorbitol", "mannitol", "xylitol", "maltitol", "isomalt", "lactitol", "erythritol", "glycerol")
 
 _C = Component
 COMPONENTS: tuple[Component, ...] = (
     _C("water", "g", "water (moisture)", group="proximate"),
     _C("protein", "g", "protein (nitrogen x factor)", group="proximate"),
+    _C(
+        "nitrogen",
+        "g",
+        "total nitrogen of the protein (lets a market that fixes N x 6.25 recompute protein)",
+        part_of="protein",
+        group="proximate",
+    ),
     _C(
         "fat",
         "g",
@@ -69,6 +103,12 @@ COMPONENTS: tuple[Component, ...] = (
     *(_C(p, "g", f"{p} (polyol)", group="polyol") for p in POLYOLS),
     _C("fibre_soluble", "g", "soluble dietary fibre (non-digestible carbohydrate)", group="fibre"),
     _C("fibre_insoluble", "g", "insoluble dietary fibre (non-digestible carbohydrate)", group="fibre"),
+    _C(
+        "fibre_unsplit",
+        "g",
+        "dietary fibre whose soluble / insoluble split is not known (tables mostly give total fibre only)",
+        group="fibre",
+    ),
     _C("organic_acids", "g", "organic acids (citric, malic, lactic, acetic ...)", group="other"),
     _C("ethanol", "g", "ethanol (alcohol)", group="other"),
     _C("ash", "g", "ash (minerals incl. sodium)", group="proximate"),
@@ -76,10 +116,13 @@ COMPONENTS: tuple[Component, ...] = (
     _C("potassium", "mg", "potassium (part of ash)", part_of="ash", group="mineral"),
     _C("calcium", "mg", "calcium (part of ash)", part_of="ash", group="mineral"),
     _C("iron", "mg", "iron (part of ash)", part_of="ash", group="mineral"),
+    *(_C(k, u, f"{k} [{u}] (part of ash)", part_of="ash", group="mineral") for k, u in MINERALS),
     _C("vitamin_a", "ug", "vitamin A as retinol activity equivalents [ug RAE]", group="vitamin"),
     _C("vitamin_d", "ug", "vitamin D [ug]", group="vitamin"),
     _C("vitamin_e", "mg", "vitamin E as alpha-tocopherol [mg]", group="vitamin"),
     _C("vitamin_k", "ug", "vitamin K [ug]", group="vitamin"),
+    *(_C(k, u, d, group="vitamin") for k, u, d in VITAMINS),
+    _C("choline", "mg", "choline, total [mg]", group="other"),
     _C("caffeine", "mg", "caffeine [mg]", group="other"),
     _C("sulphites", "mg", "sulphites expressed as SO2 [mg]", group="other"),
 )
@@ -102,12 +145,37 @@ DERIVED = {
     "total_lipid": ("fat", "nonabsorbed_lipid", "partial_lipid"),
     "available_carbohydrate": ("sugars", "starch"),
     "polyols": POLYOLS,
-    "fibre": ("fibre_soluble", "fibre_insoluble"),
+    "fibre": ("fibre_soluble", "fibre_insoluble", "fibre_unsplit"),
 }
+
+#: A part that is unknown wherever some of its whole is held unsplit: soluble and
+#: insoluble fibre cannot be told while any fibre of the product has no split.
+UNSPLIT_OF: dict[str, str] = {"fibre_soluble": "fibre_unsplit", "fibre_insoluble": "fibre_unsplit"}
+
+#: Component groups an ingredient may name in ``assumed_zero`` besides single components.
+GROUPS: dict[str, tuple[str, ...]] = {}
 
 #: Sodium to salt, as the EU defines salt (sodium x 2.5); the factor is
 #: close to the molar-mass ratio NaCl/Na = 2.542 (checked in tests).
 SALT_PER_SODIUM = 2.5
+
+
+GROUPS.update(DERIVED)
+GROUPS.update(CONVENIENCE_TOTALS)
+GROUPS["fibre"] = DERIVED["fibre"]
+for _plural, _group in (
+    ("proximates", "proximate"),
+    ("lipids", "lipid"),
+    ("carbohydrates", "carbohydrate"),
+    ("minerals", "mineral"),
+    ("vitamins", "vitamin"),
+    ("others", "other"),
+):
+    GROUPS[_plural] = tuple(c.key for c in COMPONENTS if c.group == _group)
+
+
+#: Per-unit scale to grams.
+GRAMS_PER_UNIT = {"g": 1.0, "mg": 1e-3, "ug": 1e-6}
 
 
 def unit_of(key: str) -> str:

@@ -44,7 +44,21 @@ def _ingredient(per100: dict, *, name="Test food", kinds=(), allergens=(), subst
     ing = {
         "label_name": name,
         "source": "test data (invented round numbers)",
-        "unlisted": "zero",
+        "assumed_zero": [
+            {
+                "components": [
+                    "proximates",
+                    "lipids",
+                    "carbohydrates",
+                    "polyols",
+                    "fibre",
+                    "minerals",
+                    "vitamins",
+                    "others",
+                ],
+                "reason": "test fixture: every component not given is none",
+            }
+        ],
         "per_100g": body,
         "kinds": list(kinds),
     }

@@ -18,69 +18,69 @@ ingredients:
   tuber:
     label_name: Tuber
     source: test data (invented round numbers)
-    unlisted: zero
+    assumed_zero: [{components: [proximates, lipids, carbohydrates, polyols, fibre, minerals, vitamins, others], reason: "test fixture: every component not given is none"}]
     per_100g: {water: 80, protein: 2, fat: 0.1, sugars: 1, starch: 15, fibre_soluble: 0.5, fibre_insoluble: 1.4}
     allergens: []
   oil:
     label_name: Sunflower oil
     source: test data
-    unlisted: zero
+    assumed_zero: [{components: [proximates, lipids, carbohydrates, polyols, fibre, minerals, vitamins, others], reason: "test fixture: every component not given is none"}]
     per_100g: {fat: 100, saturated_fa: 10, monounsaturated_fa: 60, polyunsaturated_fa: 25, vitamin_e: 40}
     allergens: []
   spe:
     label_name: Sucrose polyester
     source: test data
-    unlisted: zero
+    assumed_zero: [{components: [proximates, lipids, carbohydrates, polyols, fibre, minerals, vitamins, others], reason: "test fixture: every component not given is none"}]
     per_100g: {nonabsorbed_lipid: 100}
     allergens: []
   structured:
     label_name: Structured lipid
     source: test data
-    unlisted: zero
+    assumed_zero: [{components: [proximates, lipids, carbohydrates, polyols, fibre, minerals, vitamins, others], reason: "test fixture: every component not given is none"}]
     per_100g: {partial_lipid: 100}
     lipid_energy: {kj_per_g: 21, kcal_per_g: 5, source: test data}
     allergens: []
   salatrim:
     label_name: Salatrim
     source: test data
-    unlisted: zero
+    assumed_zero: [{components: [proximates, lipids, carbohydrates, polyols, fibre, minerals, vitamins, others], reason: "test fixture: every component not given is none"}]
     per_100g: {partial_lipid: 100}
     lipid_energy: {kj_per_g: 25, kcal_per_g: 6, kind: salatrim, source: test data}
     allergens: []
   flour:
     label_name: Wheat flour
     source: test data
-    unlisted: zero
+    assumed_zero: [{components: [proximates, lipids, carbohydrates, polyols, fibre, minerals, vitamins, others], reason: "test fixture: every component not given is none"}]
     per_100g: {water: 14, protein: 10, fat: 1, sugars: 1, starch: 70, fibre_soluble: 1, fibre_insoluble: 2, ash: 1, sodium: 2}
     allergens: [wheat]
   sugar:
     label_name: Sugar
     source: test data
-    unlisted: zero
+    assumed_zero: [{components: [proximates, lipids, carbohydrates, polyols, fibre, minerals, vitamins, others], reason: "test fixture: every component not given is none"}]
     per_100g: {sugars: 100, added_sugars: 100}
     allergens: []
   salt:
     label_name: Salt
     source: test data
-    unlisted: zero
+    assumed_zero: [{components: [proximates, lipids, carbohydrates, polyols, fibre, minerals, vitamins, others], reason: "test fixture: every component not given is none"}]
     per_100g: {ash: 100, sodium: 39300}
     allergens: []
   water:
     label_name: Water
     source: test data
-    unlisted: zero
+    assumed_zero: [{components: [proximates, lipids, carbohydrates, polyols, fibre, minerals, vitamins, others], reason: "test fixture: every component not given is none"}]
     per_100g: {water: 100}
     allergens: []
   maltitol:
     label_name: Maltitol
     source: test data
-    unlisted: zero
+    assumed_zero: [{components: [proximates, lipids, carbohydrates, polyols, fibre, minerals, vitamins, others], reason: "test fixture: every component not given is none"}]
     per_100g: {maltitol: 100}
     allergens: []
   erythritol:
     label_name: Erythritol
     source: test data
-    unlisted: zero
+    assumed_zero: [{components: [proximates, lipids, carbohydrates, polyols, fibre, minerals, vitamins, others], reason: "test fixture: every component not given is none"}]
     per_100g: {erythritol: 100}
     allergens: []
   herb:

@@ -41,6 +41,11 @@ def pack():
 
 # ------------------------------------------------------------------------------------ helpers
 
+ALL_ZERO = (
+    "assumed_zero: [{components: [proximates, lipids, carbohydrates, polyols, fibre, minerals, vitamins, others], "
+    'reason: "test fixture: every component not given is none"}]'
+)
+
 
 def _ingredient_yaml(key: str, spec: dict) -> str:
     per = spec.get("per_100g", {})
@@ -49,7 +54,7 @@ def _ingredient_yaml(key: str, spec: dict) -> str:
         f"  {key}:",
         f"    label_name: {spec.get('label', key.replace('_', ' ').capitalize())}",
         "    source: test data (invented round numbers)",
-        f"    unlisted: {spec.get('unlisted', 'zero')}",
+        *([] if spec.get("no_assumed_zeros") else [f"    {ALL_ZERO}"]),
         f"    per_100g: {{{body}}}",
     ]
     if "allergens" not in spec or spec["allergens"] is not None:
@@ -299,8 +304,8 @@ def test_vitamin_mineral_claims(lab, comp, source, step):
 
 
 def test_unknown_value_cannot_tell(lab):
-    # vitamin K unknown (unlisted: unknown, key omitted) -> no verdict built on a zero
-    c = verdict(lab.one({"sugars": 10, "vitamin_a": 0}, unlisted="unknown"), "source_of_vitamin_k")
+    # vitamin K unknown (key omitted, no assumed zeros) -> no verdict built on a zero
+    c = verdict(lab.one({"sugars": 10, "vitamin_a": 0}, no_assumed_zeros=True), "source_of_vitamin_k")
     assert c.verdict == CANNOT_TELL
 
 
@@ -409,7 +414,7 @@ def test_polyol_statement_counts_added_polyols_only(lab):
 
 
 def test_polyol_statement_unknown_is_flagged_for_review(lab):
-    m = lab.ingredient("polyol_mix", per_100g={"sorbitol": 50}, unlisted="unknown", kinds=["polyol"])
+    m = lab.ingredient("polyol_mix", per_100g={"sorbitol": 50}, no_assumed_zeros=True, kinds=["polyol"])
     base = lab.ingredient("base", per_100g={"starch": 80, "water": 20})
     a = lab.assess(lab.formula([(m, 20), (base, 80)]))
     (s,) = [s for s in a.statements if s.statement == "polyols_laxative"]

@@ -60,7 +60,21 @@ def _ingredient(per100, *, kinds=()):
     return {
         "label_name": "Test food",
         "source": "test data (invented round numbers)",
-        "unlisted": "zero",
+        "assumed_zero": [
+            {
+                "components": [
+                    "proximates",
+                    "lipids",
+                    "carbohydrates",
+                    "polyols",
+                    "fibre",
+                    "minerals",
+                    "vitamins",
+                    "others",
+                ],
+                "reason": "test fixture: every component not given is none",
+            }
+        ],
         "allergens": [],
         "kinds": list(kinds),
         "per_100g": body,

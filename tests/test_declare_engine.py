@@ -146,9 +146,9 @@ def test_only_if_bands_see_the_other_figures(write, lib_dir):
     from labelcalc.labelling.rulepack import load_packs
 
     (lib_dir / "sat.yaml").write_text(
-        "ingredients:\n  lowsat:\n    label_name: L\n    source: test\n    unlisted: zero\n"
+        "ingredients:\n  lowsat:\n    label_name: L\n    source: test\n    assumed_zero: [{components: [proximates, lipids, carbohydrates, polyols, fibre, minerals, vitamins, others], reason: 'test fixture: every component not given is none'}]\n"
         "    per_100g: {water: 10, starch: 80, fat: 5, saturated_fa: 0.5}\n"
-        "  midsat:\n    label_name: M\n    source: test\n    unlisted: zero\n"
+        "  midsat:\n    label_name: M\n    source: test\n    assumed_zero: [{components: [proximates, lipids, carbohydrates, polyols, fibre, minerals, vitamins, others], reason: 'test fixture: every component not given is none'}]\n"
         "    per_100g: {water: 10, starch: 80, fat: 5, saturated_fa: 1.5}\n",
         encoding="utf-8",
     )

@@ -20,7 +20,7 @@ ingredients:
   food:
     label_name: Food
     source: test vector
-    unlisted: zero
+    assumed_zero: [{{components: [proximates, lipids, carbohydrates, polyols, fibre, minerals, vitamins, others], reason: "test fixture: every component not given is none"}}]
     per_100g: {per_100g}
 {extra}
 """,

@@ -32,7 +32,7 @@ def food(write, lib_dir, tmp_path):
     from labelcalc.intake.library import load_library
 
     (lib_dir / "food.yaml").write_text(
-        "ingredients:\n  food:\n    label_name: Food\n    source: test\n    unlisted: zero\n"
+        "ingredients:\n  food:\n    label_name: Food\n    source: test\n    assumed_zero: [{components: [proximates, lipids, carbohydrates, polyols, fibre, minerals, vitamins, others], reason: 'test fixture: every component not given is none'}]\n"
         "    per_100g: {water: 30, fat: 10, saturated_fa: 2, sugars: 5, starch: 40, fibre_insoluble: 5, protein: 8,"
         " ash: 2, sodium: 400}\n    allergens: []\n",
         encoding="utf-8",
@@ -94,7 +94,7 @@ def test_eu_band_switch_at_10_g(write, lib_dir, declared_fat, analysed, expected
     from labelcalc.intake.library import load_library
 
     (lib_dir / "f2.yaml").write_text(
-        "ingredients:\n  f2:\n    label_name: F2\n    source: test\n    unlisted: zero\n"
+        "ingredients:\n  f2:\n    label_name: F2\n    source: test\n    assumed_zero: [{components: [proximates, lipids, carbohydrates, polyols, fibre, minerals, vitamins, others], reason: 'test fixture: every component not given is none'}]\n"
         f"    per_100g: {{water: 40, fat: {declared_fat}, starch: 50}}\n    allergens: []\n",
         encoding="utf-8",
     )

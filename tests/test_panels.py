@@ -84,7 +84,7 @@ def test_long_ingredient_list_in_pdf(tmp_path, lib_dir, write):
 
     extra = "\n".join(
         f"  ing{i}:\n    label_name: Ingredient {i} with a long supplier name\n    source: test\n"
-        f"    unlisted: zero\n    per_100g: {{starch: 90, water: 10}}\n    allergens: []"
+        f"    assumed_zero: [{{components: [proximates, lipids, carbohydrates, polyols, fibre, minerals, vitamins, others], reason: 'test fixture: every component not given is none'}}]\n    per_100g: {{starch: 90, water: 10}}\n    allergens: []"
         for i in range(40)
     )
     (lib_dir / "many.yaml").write_text("ingredients:\n" + extra + "\n", encoding="utf-8")

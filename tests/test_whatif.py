@@ -76,7 +76,7 @@ def test_cost_per_kg_accounts_for_water_lost(write, lib_dir, tmp_path):
     from labelcalc.intake.library import load_library
 
     (lib_dir / "priced.yaml").write_text(
-        "ingredients:\n  veg:\n    label_name: Veg\n    source: test\n    unlisted: zero\n"
+        "ingredients:\n  veg:\n    label_name: Veg\n    source: test\n    assumed_zero: [{components: [proximates, lipids, carbohydrates, polyols, fibre, minerals, vitamins, others], reason: 'test fixture: every component not given is none'}]\n"
         "    per_100g: {water: 80, starch: 20}\n    price: {per_kg: 1.0, currency: EUR}\n",
         encoding="utf-8",
     )

@@ -45,7 +45,7 @@ def sample(tmp_path):
     body = ", ".join(f"{k}: {v!r}" for k, v in per100.items())
     (lib / "l.yaml").write_text(
         f"ingredients:\n  sample_food:\n    label_name: Sample\n    source: FDA 2016 sample label\n"
-        f"    unlisted: zero\n    per_100g: {{{body}}}\n",
+        f"    assumed_zero: [{{components: [proximates, lipids, carbohydrates, polyols, fibre, minerals, vitamins, others], reason: 'test fixture: every component not given is none'}}]\n    per_100g: {{{body}}}\n",
         encoding="utf-8",
     )
     p = tmp_path / "sample.yaml"

@@ -36,7 +36,7 @@ def comp(tmp_path_factory):
     (d / "ingredients").mkdir()
     body = ", ".join(f"{k}: {v}" for k, v in FOOD.items())
     (d / "ingredients" / "l.yaml").write_text(
-        f"ingredients:\n  food:\n    label_name: Food\n    source: worked example\n    unlisted: zero\n"
+        f"ingredients:\n  food:\n    label_name: Food\n    source: worked example\n    assumed_zero: [{{components: [proximates, lipids, carbohydrates, polyols, fibre, minerals, vitamins, others], reason: 'test fixture: every component not given is none'}}]\n"
         f"    per_100g: {{{body}}}\n    allergens: []\n",
         encoding="utf-8",
     )

@@ -112,10 +112,27 @@ class Composition:
     def value(self, key: str) -> float | None:
         """Value per 100 g of a component or derived total; None when unknown."""
         if key in C.DERIVED:
-            parts = [self.value(k) for k in C.DERIVED[key]]
+            parts = [self.value(k) for k in C.DERIVED[key] if k not in C.UNSPLIT_OF]
+            parts += [self._raw(k) for k in C.DERIVED[key] if k in C.UNSPLIT_OF]
             return None if any(p is None for p in parts) else float(sum(parts))
+        if key in C.UNSPLIT_OF and self.split_unknown(key):
+            return None
+        return self._raw(key)
+
+    def _raw(self, key: str) -> float | None:
         i = COL[key]
         return None if self.unknown[i] else float(self.per_100g[i])
+
+    def split_unknown(self, key: str) -> bool:
+        """True when ``key`` (soluble or insoluble fibre) cannot be told because part of its whole
+        has no split; the whole and the energy (each factor set's own rule) stay known."""
+        whole = COL[C.UNSPLIT_OF[key]]
+        return bool(self.unknown[whole] or self.per_100g[whole] > EPS)
+
+    @property
+    def assumptions(self) -> list[tuple[str, list[str], str]]:
+        """Zeros stated in the library for the ingredients used: (ingredient, components, reason)."""
+        return self._table.library.assumptions([ing.id for ing in self.formula.ingredients_used()])
 
     def per_serving(self, key: str) -> float | None:
         v, s = self.value(key), self.formula.serving_grams()
@@ -126,12 +143,16 @@ class Composition:
 
     @property
     def unknown_components(self) -> list[str]:
-        return [k for k in C.KEYS if self.unknown[COL[k]]]
+        return [k for k in C.KEYS if self.value(k) is None]
 
     def unknown_inputs(self, key: str) -> list[str]:
         """Ingredient ids (through sub-formulas) whose unknown value makes ``key`` unknown."""
         keys = C.DERIVED.get(key, (key,))
-        return [ing.id for ing in self.formula.ingredients_used() if any(k not in ing.values for k in keys)]
+        used = self.formula.ingredients_used()
+        out = [ing.id for ing in used if any(k not in ing.values for k in keys)]
+        if key in C.UNSPLIT_OF:
+            out += [i.id for i in used if i.id not in out and i.values.get(C.UNSPLIT_OF[key], 0.0) > 0]
+        return out
 
     def finished_grams_of(self, f: Formula) -> float:
         """Finished mass [g] of a batch of ``f`` (this product or one of its sub-formulas) in this scenario."""

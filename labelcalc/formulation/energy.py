@@ -40,6 +40,7 @@ ENERGY_GROUPS: dict[str, tuple[str, ...]] = {
     **{p: (p,) for p in C.POLYOLS},
     "fibre_soluble": ("fibre_soluble",),
     "fibre_insoluble": ("fibre_insoluble",),
+    "fibre_unsplit": ("fibre_unsplit",),
     "organic_acids": ("organic_acids",),
     "ethanol": ("ethanol",),
 }

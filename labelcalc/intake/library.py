@@ -9,24 +9,33 @@ A library is a folder (or a single file) of YAML and CSV files.  YAML layout::
       potato_raw:
         label_name: Potatoes
         source: "where the values come from"
-        unlisted: unknown        # or "zero": components not listed are 0 g
         per_100g: {water: 79.0, protein: 2.0, fat: 0.1, ...}
         sources: {water: "a different source for one value"}
+        basis: {protein: "N x 6.25"}   # analytical basis where the source states it
+        nitrogen_factor: 6.25          # the factor the source used for protein, if stated
+        assumed_zero:                  # zeros with a stated reason, never silent
+          - components: [polyols, ethanol]
+            reason: "potatoes: no polyols or alcohol (common practice)"
         allergens: []            # [] = none; omit = unknown (flagged)
 
-CSV layout: one row per ingredient; columns ``id``, ``label_name``,
-``source``, ``unlisted``, ``allergens`` (separated by ``;``), then one column
-per component.  An empty cell is *unknown*, never zero.
+A component left out is **unknown**.  It is zero only when ``assumed_zero``
+names it (or a group holding it: ``polyols``, ``fibre``, ``total_lipid``,
+``available_carbohydrate``) with a reason; the short form
+``assumed_zero: {carbohydrate_key: "reason"}`` is accepted too.  Every such
+assumption is listed by ``labelcalc compose`` and in its JSON.
+
+Total fibre without its soluble / insoluble split is accepted: it is held
+as ``fibre_unsplit`` (see ``components.UNSPLIT_OF``).
+
+CSV layout: see :mod:`labelcalc.intake.library_csv`.
 """
 
 from __future__ import annotations
 
-import csv
 import difflib
 import math
 from functools import cached_property
 from pathlib import Path
-from typing import Literal
 
 import numpy as np
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator
@@ -64,6 +73,21 @@ class Price(BaseModel):
     currency: str = Field(min_length=3, max_length=3)
 
 
+class ZeroAssumption(BaseModel):
+    """Components taken as zero, with the reason (cited or marked common practice)."""
+
+    model_config = ConfigDict(extra="forbid")
+    components: list[str] = Field(min_length=1)
+    reason: str = Field(min_length=3)
+
+
+def _zero_assumptions(v: object) -> object:
+    """Accept ``{key: reason}`` as well as ``[{components, reason}]``."""
+    if isinstance(v, dict):
+        return [{"components": [k], "reason": r} for k, r in v.items()]
+    return v
+
+
 class Ingredient(BaseModel):
     """One library entry.  ``values`` holds known values only (unknown = absent)."""
 
@@ -71,9 +95,15 @@ class Ingredient(BaseModel):
     id: str
     label_name: str
     source: str = Field(min_length=3)
-    unlisted: Literal["unknown", "zero"] = "unknown"
     per_100g: dict[str, float | None] = Field(default_factory=dict)
     sources: dict[str, str] = Field(default_factory=dict)
+    basis: dict[str, str] = Field(
+        default_factory=dict, description="analytical basis of a value where its source states it"
+    )
+    nitrogen_factor: float | None = Field(
+        None, gt=0, le=7, description="nitrogen-to-protein factor the source used for protein"
+    )
+    assumed_zero: list[ZeroAssumption] = Field(default_factory=list)
     allergens: list[str] | None = None
     sub_ingredients: list[str] | None = None
     kinds: list[str] = Field(default_factory=list)
@@ -83,6 +113,11 @@ class Ingredient(BaseModel):
     price: Price | None = None
     file: str | None = None
     line: int | None = None
+
+    @field_validator("assumed_zero", mode="before")
+    @classmethod
+    def _assumed(cls, v: object) -> object:
+        return _zero_assumptions(v)
 
     @field_validator("id")
     @classmethod
@@ -94,10 +129,44 @@ class Ingredient(BaseModel):
     @cached_property
     def values(self) -> dict[str, float]:
         """Known leaf values per 100 g after expanding convenience totals."""
-        return _expand(self.per_100g, self.unlisted)[0]
+        return _expand(self.per_100g, self.zeros)[0]
+
+    @cached_property
+    def zeros(self) -> dict[str, str]:
+        """Components assumed zero (not given a value), each with its reason."""
+        out: dict[str, str] = {}
+        given = {k for k, v in self.per_100g.items() if v is not None}
+        covered = {leaf for k in given for leaf in C.GROUPS.get(k, ()) if k in C.CONVENIENCE_TOTALS}
+        if "fibre" in given:
+            covered.add("fibre_unsplit")
+        for a in self.assumed_zero:
+            for key in a.components:
+                for leaf in C.GROUPS.get(key, (key,)):
+                    if leaf in C.BY_KEY and leaf not in given and leaf not in covered and leaf not in out:
+                        out[leaf] = a.reason
+        return out
 
     def source_of(self, key: str) -> str:
+        """Where the value of ``key`` comes from (an assumed zero names its reason)."""
+        if key in self.zeros:
+            return f"assumed zero: {self.zeros[key]}"
         return self.sources.get(key, self.source)
+
+    def provenance(self) -> dict[str, tuple[float, str, str | None]]:
+        """Every known value (assumed zeros included) with its source and stated basis; total fibre is
+        shown as given rather than as the leaves the loader holds it in."""
+        out = {}
+        for k, v in self.values.items():
+            if k in C.DERIVED["fibre"] and self.per_100g.get(k) is None and self.per_100g.get("fibre") is not None:
+                continue
+            out[k] = (v, self.source_of(k), self.basis_of(k))
+        if self.per_100g.get("fibre") is not None:
+            out["fibre"] = (float(self.per_100g["fibre"]), self.source_of("fibre"), self.basis_of("fibre"))
+        return out
+
+    def basis_of(self, key: str) -> str | None:
+        """The analytical basis of a value where its source states one."""
+        return self.basis.get(key)
 
     def vector(self) -> np.ndarray:
         """Composition as a float vector over :data:`components.KEYS`; NaN = unknown."""
@@ -107,14 +176,12 @@ class Ingredient(BaseModel):
         return v
 
 
-def _expand(raw: dict[str, float | None], unlisted: str) -> tuple[dict[str, float], list[str]]:
-    """Resolve convenience totals into leaves.  Returns (values, problems)."""
+def _expand(raw: dict[str, float | None], zeros: dict[str, str]) -> tuple[dict[str, float], list[str]]:
+    """Resolve convenience totals into leaves and apply the stated zeros.  Returns (values, problems)."""
     problems: list[str] = []
     vals = {k: float(v) for k, v in raw.items() if v is not None and k in C.BY_KEY}
-    if unlisted == "zero":
-        for k in C.KEYS:
-            if k not in raw:
-                vals[k] = 0.0
+    for k in zeros:
+        vals.setdefault(k, 0.0)
     carb = raw.get("available_carbohydrate")
     if carb is not None:
         have = [k for k in ("sugars", "starch") if raw.get(k) is not None]
@@ -138,10 +205,12 @@ def _expand(raw: dict[str, float | None], unlisted: str) -> tuple[dict[str, floa
             if rest < -SUM_TOLERANCE_G:
                 problems.append(f"{have[0]} exceeds fibre")
             vals[other] = max(rest, 0.0)
-        elif not have:
-            problems.append(
-                "fibre needs fibre_soluble (or fibre_insoluble) beside it: energy rules treat them differently"
-            )
+        elif not have:  # total fibre only: held unsplit; each market uses what its rule needs
+            vals["fibre_unsplit"] = float(fib)
+            vals["fibre_soluble"] = vals["fibre_insoluble"] = 0.0
+
+    if "fibre_soluble" in vals and "fibre_insoluble" in vals:
+        vals.setdefault("fibre_unsplit", 0.0)  # the split is known: nothing is held unsplit
     salt = raw.get("salt")
     if salt is not None:
         if raw.get("sodium") is not None:
@@ -169,9 +238,33 @@ def check_ingredient(ing: Ingredient, where: dict) -> list[Problem]:
     for k in ing.sources:
         if k not in allowed:
             out.append(Problem(f"source given for unknown component '{k}'", field=f"{ing.id}.sources.{k}", **where))
+    for k in ing.basis:
+        if k not in allowed:
+            out.append(Problem(f"basis given for unknown component '{k}'", field=f"{ing.id}.basis.{k}", **where))
+    for i, a in enumerate(ing.assumed_zero):
+        for k in a.components:
+            if k not in C.BY_KEY and k not in C.GROUPS:
+                near = difflib.get_close_matches(k, sorted(set(C.KEYS) | set(C.GROUPS)), n=3)
+                out.append(
+                    Problem(
+                        f"assumed_zero names unknown component '{k}'",
+                        field=f"{ing.id}.assumed_zero[{i}]",
+                        fix=f"did you mean {', '.join(near)}?" if near else "see the component list in DEVELOPERS.md",
+                        **where,
+                    )
+                )
+            elif k in C.BY_KEY and ing.per_100g.get(k) is not None:
+                out.append(
+                    Problem(
+                        f"'{k}' has a value and is also assumed zero",
+                        field=f"{ing.id}.assumed_zero[{i}]",
+                        fix="remove it from assumed_zero or remove its value",
+                        **where,
+                    )
+                )
     if out:
         return out
-    vals, msgs = _expand(ing.per_100g, ing.unlisted)
+    vals, msgs = _expand(ing.per_100g, ing.zeros)
     out += [Problem(m, field=f"{ing.id}.per_100g", **where) for m in msgs]
     total = sum(vals.get(k, 0.0) for k in C.TOTAL_KEYS)
     if total > 100 + SUM_TOLERANCE_G:
@@ -190,7 +283,7 @@ def check_ingredient(ing: Ingredient, where: dict) -> list[Problem]:
         )
     for comp in C.COMPONENTS:
         if comp.part_of and comp.key in vals and comp.part_of in vals:
-            scale = 1000.0 if comp.unit == "mg" and C.BY_KEY[comp.part_of].unit == "g" else 1.0
+            scale = C.GRAMS_PER_UNIT[C.BY_KEY[comp.part_of].unit] / C.GRAMS_PER_UNIT[comp.unit]
             if vals[comp.key] > vals[comp.part_of] * scale + SUM_TOLERANCE_G * scale:
                 out.append(
                     Problem(f"{comp.key} exceeds {comp.part_of}", field=f"{ing.id}.per_100g.{comp.key}", **where)
@@ -228,6 +321,16 @@ class Library:
             raise InputError(
                 Problem(f"unknown ingredient '{key}'", file=file, line=line, field=field, fix=fix)
             ) from None
+
+    def assumptions(self, ids: list[str] | None = None) -> list[tuple[str, list[str], str]]:
+        """Every stated zero as (ingredient id, components, reason), one line per reason."""
+        out = []
+        for key in ids if ids is not None else self.ids:
+            by_reason: dict[str, list[str]] = {}
+            for comp, reason in self.ingredients[key].zeros.items():
+                by_reason.setdefault(reason, []).append(comp)
+            out += [(key, comps, reason) for reason, comps in by_reason.items()]
+        return out
 
     @cached_property
     def ids(self) -> list[str]:
@@ -267,6 +370,20 @@ def _read_yaml_library(loaded: LoadedYaml, problems: ProblemList) -> tuple[dict[
         if not isinstance(body, dict):
             problems.add("entry must be a mapping", field=str(key), **where)
             continue
+        if "unlisted" in body:
+            problems.add(
+                "'unlisted' is no longer accepted: a left-out value is unknown, never a silent zero",
+                file=loaded.file,
+                line=loaded.line_of(("ingredients", key, "unlisted")) or line,
+                field=f"{key}.unlisted",
+                fix="remove it, and list each component that is truly zero under assumed_zero with a reason "
+                "(e.g. assumed_zero: [{components: [polyols], reason: 'none in refined oil (common practice)'}])",
+            )
+            continue
+        if "from_table" in body:
+            body = _from_table(body, loaded, key, problems)
+            if body is None:
+                continue
         try:
             ing = Ingredient(id=str(key), file=loaded.file, line=line, **body)
         except ValidationError as exc:
@@ -284,102 +401,30 @@ def _read_yaml_library(loaded: LoadedYaml, problems: ProblemList) -> tuple[dict[
     return out, name
 
 
-_CSV_META = {
-    "id",
-    "label_name",
-    "source",
-    "unlisted",
-    "allergens",
-    "sub_ingredients",
-    "kinds",
-    "substance",
-    "price_per_kg",
-    "currency",
-}
+def _from_table(body: dict, loaded: LoadedYaml, key: object, problems: ProblemList) -> dict | None:
+    """An entry that reads a downloaded food-composition table in place, with the user's own values on top."""
+    from labelcalc.errors import LabelError
+    from labelcalc.tables.library import from_reference, merge
 
-
-def _read_csv_library(path: Path, problems: ProblemList) -> dict[str, Ingredient]:
-    shown = display_path(path)
-    out: dict[str, Ingredient] = {}
-    with path.open(newline="", encoding="utf-8-sig") as fh:
-        reader = csv.DictReader(fh)
-        cols = reader.fieldnames or []
-        for col in ("id", "label_name", "source"):
-            if col not in cols:
-                problems.add(f"missing column '{col}'", file=shown, line=1)
-        allowed = set(C.KEYS) | set(C.CONVENIENCE_TOTALS) | _CSV_META
-        for col in cols:
-            if col not in allowed:
-                near = difflib.get_close_matches(col, sorted(allowed), n=3)
-                problems.add(
-                    f"unknown column '{col}'",
-                    file=shown,
-                    line=1,
-                    fix=f"did you mean {', '.join(near)}?" if near else "see DEVELOPERS.md",
-                )
-        if problems.problems:
-            return out
-        for rowno, row in enumerate(reader, start=2):
-            where = {"file": shown, "line": rowno}
-            per: dict[str, float | None] = {}
-            bad = False
-            for col in cols:
-                if col in _CSV_META:
-                    continue
-                cell = (row.get(col) or "").strip()
-                if cell == "" or cell.lower() == "unknown":
-                    continue
-                try:
-                    per[col] = float(cell)
-                except ValueError:
-                    problems.add(
-                        f"'{cell}' is not a number",
-                        field=col,
-                        fix="write a number, or leave the cell empty for unknown",
-                        **where,
-                    )
-                    bad = True
-            if bad:
-                continue
-
-            def _list(col: str) -> list[str] | None:
-                if col not in cols:
-                    return None
-                cell = (row.get(col) or "").strip()
-                if cell.lower() == "unknown":
-                    return None
-                if cell.lower() in ("", "none"):
-                    return [] if cell.lower() == "none" else None
-                return [x.strip() for x in cell.split(";") if x.strip()]
-
-            price = None
-            if (row.get("price_per_kg") or "").strip():
-                price = {"per_kg": row["price_per_kg"], "currency": (row.get("currency") or "").strip()}
-            try:
-                ing = Ingredient(
-                    id=(row.get("id") or "").strip(),
-                    label_name=(row.get("label_name") or "").strip(),
-                    source=(row.get("source") or "").strip(),
-                    unlisted=(row.get("unlisted") or "unknown").strip() or "unknown",
-                    per_100g=per,
-                    allergens=_list("allergens"),
-                    sub_ingredients=_list("sub_ingredients"),
-                    kinds=_list("kinds") or [],
-                    substance=(row.get("substance") or "").strip() or None,
-                    price=price,
-                    file=shown,
-                    line=rowno,
-                )
-            except ValidationError as exc:
-                for err in exc.errors():
-                    problems.add(err["msg"], field=".".join(map(str, err["loc"])), **where)
-                continue
-            for p in check_ingredient(ing, where):
-                problems.problems.append(p)
-            if ing.id in out:
-                problems.add(f"ingredient id '{ing.id}' appears twice", **where)
-            out[ing.id] = ing
-    return out
+    ref = body.get("from_table")
+    line = loaded.line_of(("ingredients", key, "from_table"))
+    if not isinstance(ref, dict):
+        problems.add(
+            "from_table must be a mapping {database, path, food}",
+            file=loaded.file,
+            line=line,
+            field=f"{key}.from_table",
+        )
+        return None
+    try:
+        entry, _ = from_reference(ref, Path(loaded.file).parent)
+    except LabelError as exc:
+        for p in exc.problems:
+            problems.add(
+                p.message, file=p.file or loaded.file, line=p.line or line, field=f"{key}.from_table", fix=p.fix
+            )
+        return None
+    return merge(entry, body, loaded.file)
 
 
 def load_library(path: str | Path) -> Library:
@@ -395,7 +440,9 @@ def load_library(path: str | Path) -> Library:
     name = None
     for f in files:
         if f.suffix == ".csv":
-            found = _read_csv_library(f, problems)
+            from labelcalc.intake.library_csv import read_csv_library
+
+            found = read_csv_library(f, problems)
         else:
             found, nm = _read_yaml_library(load_yaml(f), problems)
             name = name or nm

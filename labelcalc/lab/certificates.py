@@ -43,7 +43,7 @@ ANALYTES: dict[str, tuple[tuple[str, ...], str, float]] = {
     "protein": (("protein",), "g", 1.0),
     "sugars": (("sugars",), "g", 1.0),
     "starch": (("starch",), "g", 1.0),
-    "fibre": (("fibre_soluble", "fibre_insoluble"), "g", 1.0),
+    "fibre": (("fibre_soluble", "fibre_insoluble", "fibre_unsplit"), "g", 1.0),
     "polyols": (
         ("sorbitol", "mannitol", "xylitol", "maltitol", "isomalt", "lactitol", "erythritol", "glycerol"),
         "g",

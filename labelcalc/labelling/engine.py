@@ -153,6 +153,12 @@ class LabelEngine:
         self.n = n = len(ok)
         self.V = np.vstack([c.per_100g for c in ok]) if n else np.zeros((0, len(COL)))
         self.U = np.vstack([c.unknown for c in ok]) if n else np.zeros((0, len(COL)), dtype=bool)
+        # For nutrient sums (not energy): a part cannot be told while some of its whole has no split,
+        # as Composition.value says (soluble / insoluble fibre beside fibre_unsplit) (#16).
+        self.U_parts = self.U.copy()
+        for part, whole in C.UNSPLIT_OF.items():
+            w = COL[whole]
+            self.U_parts[:, COL[part]] |= self.U[:, w] | (np.nan_to_num(self.V[:, w]) > 1e-9)
         self.serving = np.array([p.serving if p.serving is not None else np.nan for p in plans])
         self.container = np.array([p.container if p.container is not None else np.nan for p in plans])
         self.ref_g = np.array([p.ref[1] if p.ref else np.nan for p in plans])
@@ -275,7 +281,7 @@ class LabelEngine:
             for comp, fac in (nd.sum or {}).items():
                 cols = [COL[k] for k in C.DERIVED.get(comp, (comp,))]
                 tot += V0[:, cols].sum(axis=1) * fac
-                unk |= self.U[:, cols].any(axis=1)
+                unk |= (self.U_parts if comp in C.UNSPLIT_OF else self.U)[:, cols].any(axis=1)
             self.val[key] = np.where(unk, np.nan, tot)
         ek = next((k for k, nd in self.pack.nutrients.items() if nd.energy == "kcal"), None)
         self.energy_kcal_key = ek
@@ -619,7 +625,11 @@ class LabelEngine:
         comps = t.components or []
         cols = [COL[k] for c in comps for k in C.DERIVED.get(c, (c,))]
         if not t.from_kinds:
-            return np.nan_to_num(self.V[:, cols]).sum(axis=1), np.asarray(self.U[:, cols].any(axis=1))
+            unk = np.zeros(self.n, dtype=bool)
+            for key in comps:
+                cc = [COL[k] for k in C.DERIVED.get(key, (key,))]
+                unk |= (self.U_parts if key in C.UNSPLIT_OF else self.U)[:, cc].any(axis=1)
+            return np.nan_to_num(self.V[:, cols]).sum(axis=1), unk
         v = np.zeros(self.n)
         want = set(t.from_kinds)
         for i, c in enumerate(self.comps):

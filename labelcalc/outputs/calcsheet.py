@@ -46,7 +46,8 @@ def _record(a: Assessment):
 
 def calculation_rows(a: Assessment) -> list[dict]:
     """The sheet's rows: one "figure" row per shown row and column, one "line" row per leaf ingredient or
-    processing effect that contributes to it, one "unknown" row per unknown input."""
+    processing effect that contributes to it, one "unknown" row per unknown input, one "assumed zero" row per
+    zero the ingredient library states (ingredient, components, reason)."""
     trace = _record(a).trace
     out: list[dict] = []
     for r in trace["rows"]:
@@ -101,6 +102,8 @@ def calculation_rows(a: Assessment) -> list[dict]:
                     "source": ", ".join(r["unknown_inputs"]),
                 }
             )
+    for ing, comps, reason in a.declaration.composition.assumptions:
+        out.append({"kind": "assumed zero", "ingredient": ing, "label": ", ".join(comps), "source": reason})
     return out
 
 

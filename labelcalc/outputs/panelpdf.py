@@ -505,6 +505,10 @@ def calculation_story(a: Assessment, st) -> list:
     unknown = [r for r in rows if r["kind"] == "unknown"]
     story.append(Paragraph("Unknown inputs", st["h2"]))
     story.append(Paragraph(_esc("; ".join(f"{r['label']}: {r['source']}" for r in unknown) or "none"), st["base"]))
+    zeros = [r for r in rows if r["kind"] == "assumed zero"]
+    story.append(Paragraph("Assumed zeros (stated in the ingredient library with a reason)", st["h2"]))
+    text = "; ".join(f"{r['ingredient']}: {r['label']} ({r['source']})" for r in zeros) or "none"
+    story.append(Paragraph(_esc(text), st["base"]))
     return story
 
 

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import os
+
 from labelcalc import components as C
 from labelcalc.formulation.composition import Composition
 from labelcalc.formulation.energy import EnergyResult, energy_by_line
@@ -100,12 +102,55 @@ def compose_text(comps: list[Composition], energies: dict[str, list[EnergyResult
         for rv, sets in by_text.items():
             out.append(f"Review [{', '.join(sets)}]: {rv}")
         out.append("")
+    out += provenance_lines(comps[0])
     if f.is_fried:
         out.append(
             "Note: fried product — oil uptake and moisture loss are estimates; laboratory analysis of fat and "
             "moisture is the usual confirmation."
         )
     return "\n".join(out).rstrip() + "\n"
+
+
+def _common_head(texts: list[str]) -> str:
+    """The shared start of the source texts, cut back to a ', ' boundary."""
+    texts = [t for t in texts if not t.startswith(("derived", "assumed", "given in"))]
+    if len(texts) < 2:
+        return ""
+    head = os.path.commonprefix(texts)
+    cut = head.rfind(", ")
+    return head[: cut + 2] if cut > 0 else ""
+
+
+def provenance_lines(c: Composition) -> list[str]:
+    """Each ingredient value used with its source and basis, then every assumed zero."""
+    out = ["Ingredient values (per 100 g of the ingredient) and their sources"]
+    for ing in c.formula.ingredients_used():
+        prov = {k: v for k, v in ing.provenance().items() if k not in ing.zeros}
+        head = _common_head([src for _, src, _ in prov.values()])
+        shown = head.rstrip(", ")
+        out.append(f"  {ing.id} — {ing.source}" + (f" [{shown}]" if shown and not ing.source.startswith(shown) else ""))
+        parts = []
+        for k, (v, src, basis) in prov.items():
+            text = f"{k} {v:g} {C.unit_of(k)}"
+            rest = src[len(head) :] if head else src
+            if rest != ing.source:
+                text += f" ({rest})"
+            if basis:
+                text += f" [basis: {basis}]"
+            parts.append(text)
+        out.append("    " + ("; ".join(parts) or "no values"))
+    zeros = c.assumptions
+    out.append("")
+    if zeros:
+        out.append("Assumed zeros (stated in the library with a reason; not measured):")
+        grouped: dict[tuple[str, str], list[str]] = {}
+        for ing_id, comps, reason in zeros:
+            grouped.setdefault((", ".join(comps), reason), []).append(ing_id)
+        out += [f"  {', '.join(ids)}: {comps} — {reason}" for (comps, reason), ids in grouped.items()]
+    else:
+        out.append("Assumed zeros: none (every figure comes from a stated value, or is shown as unknown).")
+    out.append("")
+    return out
 
 
 def energies_for(energies, fid, i):
