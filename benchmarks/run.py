@@ -1,30 +1,42 @@
 """Benchmarks for range runs (not a test: CI never runs this).
 
-    python3 benchmarks/run.py            # 10,000 and 20,000 formulas x 3 markets, PDF panels
-    python3 benchmarks/run.py --quick    # 1,000 and 2,000 formulas, for a smoke check
+    python3 benchmarks/run.py              # 10,000 and 20,000 formulas x 3 markets, PDFs, one-panel start-up
+    python3 benchmarks/run.py --quick      # 1,000 and 2,000 formulas, fewer repeats: a smoke check
+    python3 benchmarks/run.py --with-100k  # adds the memory run over 100,000 formulas
 
-Measures, in one run on this machine:
-1. the time to merely parse every formula file with PyYAML's C-accelerated safe loader;
-2. the time of `labelcalc range` (declarations, claims, statements, front of pack; no PDFs) for
-   3 markets, with --jobs 1 and --jobs 2, and the ratio to (1);
-3. peak memory of that run (resident set size of the process and its workers);
-4. the ratio of the 20,000-formula time to the 10,000-formula time;
-5. PDF panels per second with --jobs 2.
-Results are printed and written to benchmarks/results.json.
+Every goal is measured as a ratio within one run, so a busy or a fast machine moves both sides alike:
+
+1. range time / parse time: `labelcalc range` (declarations, claims, statements, allergens, front of pack; summary
+   written; no register, no PDFs) for 3 markets with --jobs 1 and --jobs 2, against merely parsing the same files
+   with PyYAML's C-accelerated safe loader in one process. Parse and range runs are interleaved and repeated; the
+   ratio is taken pair by pair and reported as min and median.
+2. peak memory summed over the parent and its worker processes (sampled from the process tree).
+3. the 20,000-formula time over the 10,000-formula time (--jobs 2).
+4. PDF panels per second with --jobs 2 (the range with --panels, less the same range without).
+5. `labelcalc panel` for one demo product and one market, interpreter start included.
+
+Results are printed and written to benchmarks/results.json (results-quick.json with --quick), with the machine
+and the date.  Memory is read with psutil (the `bench` extra: pip install -e '.[bench]').
 """
 
 from __future__ import annotations
 
+import datetime
 import json
+import os
 import platform
+import statistics
 import subprocess
 import sys
+import tempfile
+import threading
 import time
 from pathlib import Path
 
 import yaml
 
 HERE = Path(__file__).resolve().parent
+ROOT = HERE.parent
 sys.path.insert(0, str(HERE))
 from generate import generate  # noqa: E402
 
@@ -32,6 +44,7 @@ MARKETS = "us,eu,ca"
 
 
 def parse_only(folder: Path) -> float:
+    """Seconds to parse every formula file of a generated range in one process (the yardstick)."""
     files = sorted((folder / "products").glob("*.yaml"))
     t = time.perf_counter()
     for f in files:
@@ -39,74 +52,136 @@ def parse_only(folder: Path) -> float:
     return time.perf_counter() - t
 
 
+def tree_rss_mb(pid: int) -> float:
+    """Resident memory [MB] of a process and all its descendants, summed."""
+    import psutil
+
+    try:
+        p = psutil.Process(pid)
+        procs = [p, *p.children(recursive=True)]
+    except psutil.NoSuchProcess:
+        return 0.0
+    total = 0
+    for q in procs:
+        try:
+            total += q.memory_info().rss
+        except psutil.NoSuchProcess:
+            pass
+    return total / 2**20
+
+
 def run(cmd: list[str]) -> tuple[float, float]:
-    """Wall time [s] and peak RSS [MB] of a child command (and its own children)."""
+    """Wall time [s] of a command and the peak of its process tree's summed resident memory [MB]."""
     t = time.perf_counter()
-    code = (
-        f"import resource, subprocess, sys; r = subprocess.run({cmd!r}); "
-        "u = resource.getrusage(resource.RUSAGE_CHILDREN); print(u.ru_maxrss); sys.exit(0)"
-    )
-    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
+    proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    peak = 0.0
+    stop = threading.Event()
+
+    def sample() -> None:
+        nonlocal peak
+        while not stop.is_set():
+            peak = max(peak, tree_rss_mb(proc.pid))
+            stop.wait(0.05)
+
+    th = threading.Thread(target=sample, daemon=True)
+    th.start()
+    _, err = proc.communicate()
     wall = time.perf_counter() - t
-    rss_kb = int(out.stdout.strip().splitlines()[-1])
-    return wall, rss_kb / 1024
+    stop.set()
+    th.join()
+    if proc.returncode not in (0, 1):  # 1: some generated formulas are refused, correctly
+        raise SystemExit(f"{' '.join(cmd)} failed ({proc.returncode}): {err.decode()[-2000:]}")
+    return wall, peak
 
 
-def range_cmd(src: Path, out: Path, jobs: int, panels: bool = False) -> list[str]:
-    cmd = [
-        sys.executable,
-        "-m",
-        "labelcalc.cli",
-        "range",
-        str(src),
-        "--market",
-        MARKETS,
-        "--out",
-        str(out),
-        "--library",
-        str(src / "ingredients"),
-        "--jobs",
-        str(jobs),
-        "--no-register",
-        "-q",
-    ]
+def range_cmd(src: Path, out: Path, jobs: int, *, panels: bool = False) -> list[str]:
+    cmd = [sys.executable, "-m", "labelcalc.cli", "range", str(src), "--market", MARKETS, "--out", str(out)]
+    cmd += ["--library", str(src / "ingredients"), "--jobs", str(jobs), "--no-register", "-q"]
     return cmd + (["--panels"] if panels else [])
+
+
+def _stats(xs: list[float]) -> dict:
+    return {"min": round(min(xs), 3), "median": round(statistics.median(xs), 3)}
+
+
+def measure_range(src: Path, work: Path, repeats: int) -> dict:
+    """Interleaved parse / range runs: ratios pair by pair, times and summed peak memory."""
+    r1, r2, t1s, t2s, ps, m1, m2 = [], [], [], [], [], [], []
+    for k in range(repeats):
+        p = parse_only(src)
+        t1, mem1 = run(range_cmd(src, work / f"out-j1-{k}", 1))
+        p2 = parse_only(src)
+        t2, mem2 = run(range_cmd(src, work / f"out-j2-{k}", 2))
+        ps += [p, p2]
+        t1s.append(t1)
+        t2s.append(t2)
+        r1.append(t1 / p)
+        r2.append(t2 / p2)
+        m1.append(mem1)
+        m2.append(mem2)
+    return {
+        "parse_s": _stats(ps),
+        "range_jobs1_s": _stats(t1s),
+        "range_jobs2_s": _stats(t2s),
+        "ratio_jobs1": _stats(r1),
+        "ratio_jobs2": _stats(r2),
+        "peak_summed_rss_mb_jobs1": round(max(m1)),
+        "peak_summed_rss_mb_jobs2": round(max(m2)),
+    }
+
+
+def panel_start(repeats: int) -> dict:
+    """`labelcalc panel` for one demo product and one market, interpreter start included [s]."""
+    times = []
+    with tempfile.TemporaryDirectory() as tmp:
+        cmd = [sys.executable, "-m", "labelcalc.cli", "panel", str(ROOT / "demo_products" / "hl_kettle_sea_salt.yaml")]
+        cmd += ["--market", "us", "--out", tmp]
+        for _ in range(repeats):
+            t = time.perf_counter()
+            subprocess.run(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, check=False)
+            times.append(time.perf_counter() - t)
+    return _stats(times)
 
 
 def main() -> None:
     quick = "--quick" in sys.argv
-    n1, n2, npdf = (1000, 2000, 60) if quick else (10000, 20000, 300)
-    work = Path("/tmp") / "labelcalc-bench"
-    results: dict = {"machine": platform.platform(), "python": platform.python_version(), "markets": MARKETS}
+    n1, n2, npdf, repeats = (1000, 2000, 60, 3) if quick else (10000, 20000, 300, 3)
+    work = Path(tempfile.gettempdir()) / "labelcalc-bench"
+    results: dict = {
+        "date": datetime.date.today().isoformat(),
+        "machine": platform.platform(),
+        "cores": os.cpu_count(),
+        "python": platform.python_version(),
+        "markets": MARKETS,
+        "repeats": repeats,
+    }
     for n in (n1, n2):
         src = generate(n, work / f"range{n}")
-        parse = parse_only(src)
-        t1, m1 = run(range_cmd(src, work / f"out{n}-j1", 1))
-        t2, m2 = run(range_cmd(src, work / f"out{n}-j2", 2))
-        results[str(n)] = {
-            "parse_s": round(parse, 2),
-            "range_jobs1_s": round(t1, 2),
-            "range_jobs2_s": round(t2, 2),
-            "ratio_jobs1": round(t1 / parse, 2),
-            "ratio_jobs2": round(t2 / parse, 2),
-            "peak_rss_mb_jobs1": round(m1),
-            "peak_rss_mb_jobs2": round(m2),
-        }
+        results[str(n)] = measure_range(src, work, repeats)
         print(n, results[str(n)], flush=True)
-    results["scaling_20k_over_10k_jobs2"] = round(
-        results[str(n2)]["range_jobs2_s"] / results[str(n1)]["range_jobs2_s"], 2
+    results["scaling_jobs2"] = round(
+        results[str(n2)]["range_jobs2_s"]["median"] / results[str(n1)]["range_jobs2_s"]["median"], 3
     )
+    print("scaling", results["scaling_jobs2"], flush=True)
+    if "--with-100k" in sys.argv:
+        src = generate(100_000, work / "range100000")
+        t, mem = run(range_cmd(src, work / "out-100k", 2))
+        results["100000"] = {"range_jobs2_s": round(t, 1), "peak_summed_rss_mb_jobs2": round(mem)}
+        print(100_000, results["100000"], flush=True)
     src = generate(npdf, work / f"pdf{npdf}")
-    t_plain, _ = run(range_cmd(src, work / "pdf-plain", 2))
-    t_pdf, _ = run(range_cmd(src, work / "pdf-out", 2, panels=True))
-    n_pdf = len(list((work / "pdf-out" / "panels").glob("*.pdf")))
-    results["pdf"] = {
-        "products": npdf,
-        "pdfs": n_pdf,
-        "seconds_for_pdfs": round(t_pdf - t_plain, 2),
-        "pdfs_per_second_jobs2": round(n_pdf / max(t_pdf - t_plain, 1e-9), 1),
-    }
-    print("pdf", results["pdf"])
+    plain, with_pdf, rates = [], [], []
+    for k in range(repeats):
+        t_plain, _ = run(range_cmd(src, work / f"pdf-plain-{k}", 2))
+        out = work / f"pdf-out-{k}"
+        t_pdf, _ = run(range_cmd(src, out, 2, panels=True))
+        n_pdf = len(list(out.rglob("*.pdf")))
+        plain.append(t_plain)
+        with_pdf.append(t_pdf)
+        rates.append(n_pdf / max(t_pdf - t_plain, 1e-9))
+    results["pdf"] = {"products": npdf, "pdfs": n_pdf, "pdfs_per_second_jobs2": _stats(rates)}
+    print("pdf", results["pdf"], flush=True)
+    results["panel_one_product_one_market_s"] = panel_start(max(repeats, 5))
+    print("panel", results["panel_one_product_one_market_s"], flush=True)
     (HERE / ("results-quick.json" if quick else "results.json")).write_text(json.dumps(results, indent=2) + "\n")
 
 
