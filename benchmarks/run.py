@@ -21,6 +21,7 @@ and the date.  Memory is read with psutil (the `bench` extra: pip install -e '.[
 
 from __future__ import annotations
 
+import contextlib
 import datetime
 import json
 import os
@@ -63,10 +64,8 @@ def tree_rss_mb(pid: int) -> float:
         return 0.0
     total = 0
     for q in procs:
-        try:
+        with contextlib.suppress(psutil.NoSuchProcess):
             total += q.memory_info().rss
-        except psutil.NoSuchProcess:
-            pass
     return total / 2**20
 
 
