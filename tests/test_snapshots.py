@@ -36,6 +36,17 @@ def _r(x):
     return None if x is None else round(x, 6)
 
 
+def _rounded(obj):
+    """Floats to 6 decimals all through a JSON value (unrounded figures differ in float noise only)."""
+    if isinstance(obj, float):
+        return round(obj, 6)
+    if isinstance(obj, dict):
+        return {k: _rounded(v) for k, v in obj.items()}
+    if isinstance(obj, list):
+        return [_rounded(v) for v in obj]
+    return obj
+
+
 def labels_of(product: str) -> dict:
     """The figures a label carries, per market and scenario, from the JSON outputs."""
     path = str(ROOT / "demo_products" / f"{product}.yaml")
@@ -66,7 +77,7 @@ def labels_of(product: str) -> dict:
         out[key]["statements"] = sorted(f"{s['statement']}:{s['status']}" for s in a["statements"])
         out[key]["allergens"] = a["allergens"]["declared"]
         out[key]["ingredient_list"] = (a["ingredient_list"] or {}).get("text")
-        out[key]["front_of_pack"] = json.loads(json.dumps(a["front_of_pack"], sort_keys=True, default=str))
+        out[key]["front_of_pack"] = _rounded(json.loads(json.dumps(a["front_of_pack"], sort_keys=True, default=str)))
         out[key]["reviews"] = len(a["reviews"])
     return out
 

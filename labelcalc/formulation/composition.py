@@ -371,19 +371,23 @@ def compose(formula: Formula, library: Library) -> list[Composition]:
 def _compose_level(group: list[Formula], table: CompositionTable):
     """Compose formulas whose inputs are all in ``table``.  Returns per formula
     (low_row, high_row, [(vals, unknown, finished_g, steps) per scenario]) or an error."""
-    n, m = len(group), table.n
-    A = np.zeros((n, m))
+    n = len(group)
+    # only the inputs this level uses: the table grows with every composed formula, the amounts do not
+    cols = sorted({table.column_of(ln) for f in group for ln in f.lines})
+    pos = {c: k for k, c in enumerate(cols)}
+    A = np.zeros((n, len(cols)))
     for r, f in enumerate(group):
         for ln in f.lines:
-            A[r, table.column_of(ln)] += ln.grams
+            A[r, pos[table.column_of(ln)]] += ln.grams
     used = A > 0
     per_scen = []
     errors: dict[int, InputError] = {}
     for si, s in enumerate(SCENARIOS):
         T = table.matrix(s)
         unkT = np.isnan(T)
-        mass = A @ np.where(unkT, 0.0, T) / 100.0
-        unknown = (used.astype(float) @ unkT.astype(float)) > 0
+        Tu, unkTu = T[cols], unkT[cols]
+        mass = A @ np.where(unkTu, 0.0, Tu) / 100.0
+        unknown = (used.astype(float) @ unkTu.astype(float)) > 0
         total = A.sum(axis=1)
         step_logs: list[list[StepResult]] = [[] for _ in range(n)]
         nsteps = max((len(f.steps) for f in group), default=0)
