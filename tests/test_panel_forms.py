@@ -60,6 +60,16 @@ def test_canada_allergen_statement_in_both_languages(pdfs):
     assert "Wheat" in m.group(1) and "blé" in m.group(2)
 
 
+def test_canada_ingredient_list_in_both_languages(pdfs):
+    """FDR B.01.012(2): the list in both official languages, from the library's French names (demo data);
+    a name the library does not give in French is bracketed and flagged, never silently left English."""
+    flat = re.sub(r"\s+", " ", _first(pdfs / "hl_kettle_sea_salt.ca.pdf"))
+    assert "Ingrédients : Tranches de pommes de terre frites (Pommes de terre," in flat
+    assert "TRANSLATION NEEDED" not in flat
+    flat = re.sub(r"\s+", " ", _first(pdfs / "hl_baked_cracker.ca.pdf"))
+    assert "[Structured vegetable fat]" in flat and "TRANSLATION NEEDED" in flat
+
+
 def test_us_added_sugars_line_keeps_its_words(pdfs):
     flat = re.sub(r"\s+", " ", _first(pdfs / "hl_kettle_sea_salt.us.pdf"))
     # 21 CFR 101.9(d)(8)(iii): "Includes 'X'g Added Sugars"; a "less than" form keeps its spaces

@@ -178,6 +178,9 @@ class IngredientListRule(Strict):
     heading_second: str | None = Field(
         None, description="heading of the ingredient list in the second official language (a list is drafted for it)"
     )
+    second_language: str | None = Field(
+        None, description="language code of the second list's names (library and sub-formula 'label_names')"
+    )
     order: Literal["weight_at_use"] = "weight_at_use"
     water: Literal["as_used", "finished_product"] = Field(
         "as_used", description="finished_product: added water by its weight in the finished product"

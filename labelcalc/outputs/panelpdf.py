@@ -442,6 +442,49 @@ def ingredient_paragraph(a: Assessment, st) -> Paragraph | None:
     return Paragraph(f"<b>{_esc(il['heading'])}</b> " + render(il["items"]) + ".", st["base"])
 
 
+def second_language_list(a: Assessment) -> tuple[str, list[str]] | None:
+    """The ingredient list in the market's second official language (Canada: FDR B.01.012(2)), from the
+    'label_names' of the library entries and sub-formulas; names it cannot find are shown in brackets
+    and returned, so the draft says what to translate."""
+    rule = a.declaration.pack.ingredient_list
+    il = a.ingredient_list
+    if not il or rule is None or not rule.heading_second or not rule.second_language:
+        return None
+    lang = rule.second_language
+    f = a.declaration.composition.formula
+    names: dict[str, str] = {i.id: i.label_names.get(lang, "") for i in f.ingredients_used()}
+    todo = [f]
+    while todo:
+        g = todo.pop()
+        names[g.id] = (g.header.label_names or {}).get(lang, "")
+        todo += g.sub_formulas()
+    emph = a.allergens.get("emphasis", "bold")
+    missing: list[str] = []
+
+    def render(items) -> str:
+        parts = []
+        for it in items:
+            name = names.get(it.get("id", ""), "")
+            if not name:
+                missing.append(it["name"])
+                name = f"[{it['name']}]"
+            allergens = [second_allergen.get(n, n) for n in it.get("allergen_names", [])]
+            shown = allergen_name(
+                {**it, "name": _esc(name), "allergen_names": allergens}, emph, bold=lambda x: f"<b>{x}</b>"
+            )
+            if it.get("quid"):
+                shown += f" ({_esc(it['quid'])})"
+            if it["components"]:
+                shown += " (" + render(it["components"]) + ")"
+            parts.append(shown)
+        return ", ".join(parts)
+
+    entries = a.declaration.pack.allergens.entries.values() if a.declaration.pack.allergens else []
+    second_allergen = {e.name: (e.name_second or e.name).lower() for e in entries}
+    body = render(il["items"])
+    return f"<b>{_esc(rule.heading_second)}</b> {body}.", list(dict.fromkeys(missing))
+
+
 def allergen_statement(a: Assessment) -> str:
     """The allergen summary as printed, in both official languages where the pack names them in two."""
     al = a.allergens
@@ -493,18 +536,21 @@ def build_story(
     ip = ingredient_paragraph(a, st)
     if ip:
         story.append(ip)
-    rule = d.pack.ingredient_list
-    if ip and rule and rule.heading_second:
-        story.append(
-            Paragraph(
-                f"<b>{_esc(rule.heading_second)}</b> "
-                + _esc(
-                    "[the list in the second official language: the ingredient library holds no names in it — "
-                    "translate the list above before use]"
-                ),
-                st["warn"],
+    second = second_language_list(a)
+    if ip and second:
+        text, missing = second
+        story.append(Paragraph(text, st["base"]))
+        if missing:
+            story.append(
+                Paragraph(
+                    _esc(
+                        "TRANSLATION NEEDED: no name in the second official language for "
+                        + ", ".join(missing)
+                        + " — add 'label_names' to the library entry or sub-formula, or translate by hand"
+                    ),
+                    st["warn"],
+                )
             )
-        )
     al = a.allergens
     if al.get("statement"):
         story.append(Paragraph(f"<b>{_esc(allergen_statement(a))}</b>", st["base"]))
