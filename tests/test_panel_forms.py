@@ -53,6 +53,14 @@ def test_canada_panel_is_bilingual_and_has_no_us_elements(pdfs):
     assert "15% or more is a lot" in flat and "beaucoup" in flat
 
 
+def test_canada_household_measure_only_when_given_in_both_languages(pdfs):
+    # Directory: "Per HM (MM)" / "pour HM (MM)"; demo data gives the oat bar's measure in French, not the crisps'
+    flat = re.sub(r"\s+", " ", _first(pdfs / "hl_oat_bar.ca.pdf"))
+    assert "Per 1 bar (40 g)" in flat and "pour 1 barre (40 g)" in flat and "SERVING REVIEW" not in flat
+    flat = re.sub(r"\s+", " ", _first(pdfs / "hl_kettle_sea_salt.ca.pdf"))
+    assert "Per 28 g" in flat and "SERVING REVIEW" in flat
+
+
 def test_canada_allergen_statement_in_both_languages(pdfs):
     flat = re.sub(r"\s+", " ", _first(pdfs / "hl_baked_cracker.ca.pdf"))
     m = re.search(r"Contains: ([^.]+)\. / Contient : ([^.]+)\.", flat)

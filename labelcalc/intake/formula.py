@@ -35,6 +35,9 @@ class Strict(BaseModel):
 class Serving(Strict):
     size: str = Field(description="serving size with unit, e.g. '28 g' [g] (or '250 ml' with density)")
     household: str | None = Field(None, description="household measure, e.g. 'about 15 crisps'")
+    household_names: dict[str, str] | None = Field(
+        None, description="the household measure in other languages, by language code (fr: '14 croustilles')"
+    )
 
     @field_validator("size")
     @classmethod

@@ -187,6 +187,11 @@ class PanelLayout(Strict):
         "(and its second-language line)",
     )
     serving_household: bool = Field(True, description="print the formula's household measure with the size")
+    second_language: str | None = Field(
+        None,
+        description="language code of the second serving line; the household measure is printed only when the "
+        "formula gives it in that language too (serving.household_names)",
+    )
     serving_rule_pt: float | None = Field(None, description="rule under the serving lines (default 4 boxed, 1 table)")
     serving_note: str | None = Field(
         None, description="a review note printed under the panel about the serving declaration"

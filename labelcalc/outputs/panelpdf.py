@@ -205,14 +205,19 @@ class PanelDrawing(Flowable):
         ops, H, W = self._laid_out if hasattr(self, "_laid_out") else self._layout()
         self._paint(self.canv, ops, H, W)
 
-    def _serving_lines(self) -> tuple[str, str | None]:
+    def serving_lines(self) -> tuple[str, str, bool]:
+        """The serving declaration in the first and the second language, and whether the household measure
+        is in both (a second-language panel prints it only when the formula gives it in that language)."""
         d, lay = self.d, self.lay
         sv = d.composition.formula.header.serving
         hh = sv.household if sv and lay.serving_household else None
+        hh2 = (sv.household_names or {}).get(lay.second_language or "") if sv else None
+        if lay.second_language and not hh2:
+            hh = None  # a household measure in one language only would make the two lines disagree
         grams = f"{d.serving_g:g}g" if lay.compact_units else f"{d.serving_g:g} g"
         first = f"{hh} ({grams})" if hh else grams
-        second = grams  # the household measure has no second-language wording in the formula
-        return first, second
+        second = f"{hh2} ({grams})" if hh and hh2 else grams
+        return first, second, bool(hh and hh2)
 
     def _layout(self):
         """The drawing operations, height and width of the panel (measured once, drawn once)."""
@@ -265,7 +270,7 @@ class PanelDrawing(Flowable):
                 text(pad, y, stext.format(n=n))
                 y += lh * 1.1
             if d.serving_g:
-                first, second = self._serving_lines()
+                first, second, _ = self.serving_lines()
                 if lay.serving_style == "per_line":
                     text(pad, y, f"{lay.serving_text} {first}", FONT, size * 1.1)
                     if lay.serving_text_second:
@@ -530,7 +535,7 @@ def build_story(
         story.append(Paragraph(_esc(print_note), st["warn"]))
     story.append(Spacer(1, 4 * mm))
     story.append(PanelDrawing(d))
-    if d.pack.panel.layout.serving_note and d.serving_g:
+    if d.pack.panel.layout.serving_note and d.serving_g and not PanelDrawing(d).serving_lines()[2]:
         story.append(Paragraph(_esc("SERVING REVIEW: " + d.pack.panel.layout.serving_note), st["warn"]))
     story.append(Spacer(1, 4 * mm))
     ip = ingredient_paragraph(a, st)
@@ -567,7 +572,7 @@ def build_story(
                 story.append(Paragraph(_esc("Caution: " + s.caution), st["small"]))
     for fop in a.front_of_pack:
         story.append(Paragraph(_esc(f"Front of pack (draft) — {fop['name']}"), st["h2"]))
-        story.append(_fop_table(fop, st))
+        story.append(_fop_table(fop, st, {r.nutrient: plain_label(r.label) for r in d.pack.rows}))
     elig = [c for c in a.claims if c.verdict == ELIGIBLE]
     story.append(Paragraph("Claims eligible — for review, not part of the panel", st["h2"]))
     if elig:
@@ -611,11 +616,12 @@ def build_story(
     return story
 
 
-def _fop_table(fop: dict, st):
+def _fop_table(fop: dict, st, names: dict[str, str] | None = None):
     rows = [["nutrient", "verdict", "figures"]]
     if fop.get("exempt"):
         rows.append(["all", "exempt", ""])
-    for n, v in fop.get("verdicts", {}).items():
+    for key, v in fop.get("verdicts", {}).items():
+        n = (names or {}).get(key, key.replace("_", " "))
         if "colour" in v:
             fig = f"{v['per_100g']:.2f} {v.get('unit', '')} per 100 g" if v.get("per_100g") is not None else "unknown"
             rows.append([n, v["colour"], fig + (f"; {v['why']}" if v.get("why") else "")])
