@@ -29,6 +29,7 @@ COMMANDS = [
     ["where-used"],
     ["register"],
     ["schema"],
+    ["serve"],
     ["rules", "show"],
     ["rules", "check"],
 ]
