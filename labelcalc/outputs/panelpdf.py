@@ -282,7 +282,7 @@ class PanelDrawing(Flowable):
                     text(pad, y, lay.serving_text, BOLD, ssize)
                     text(W - pad, y, first, BOLD, ssize, "right")
             rule(lay.serving_rule_pt or (4 if lay.style == "boxed" else 1), size, below=ssize)
-        if lay.header_note:
+        if lay.header_note and not d.dual_column:  # dual columns are headed "Per serving" / "Per container"
             text(pad, y, lay.header_note, BOLD, size * 0.95)
             y += lh * 0.9
         # column headings (each heading at most two lines, bottom-aligned)
