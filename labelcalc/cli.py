@@ -22,17 +22,21 @@ from labelcalc.formulation.energy import energy_by_line, energy_of, load_factor_
 from labelcalc.intake.formula import load_formula
 from labelcalc.intake.library import load_library
 from labelcalc.labelling.declare import declare
+from labelcalc.labelling.rounding import plain_label
 from labelcalc.labelling.rulepack import get_packs, load_pack_file, load_packs
 from labelcalc.outputs.jsondoc import declaration_dict
 from labelcalc.outputs.textreport import compose_text, declare_text
 
+# Plain help (no rich panels): option lists read "--out PATH", flags carry no "<bool>" and arguments
+# print as FORMULA, not as typer's "{formula}" placeholders.
 app = typer.Typer(
     add_completion=False,
     no_args_is_help=True,
+    rich_markup_mode=None,
     help="From a food product formula to finished-product composition, energy and label drafts for several markets. "
     "Every output is a draft: verify it against current local regulation with a qualified regulatory professional.",
 )
-rules_app = typer.Typer(no_args_is_help=True, help="List, show and check the market rule packs.")
+rules_app = typer.Typer(no_args_is_help=True, rich_markup_mode=None, help="List, show and check the market rule packs.")
 app.add_typer(rules_app, name="rules")
 library_app = typer.Typer(
     no_args_is_help=True,
@@ -394,6 +398,11 @@ def compare_cmd(
             num(r["declared_kcal_per_serving"], 1),
             num(r["change_available_percent"], 1) + " %" if r["change_available_percent"] is not None else "-",
             (f"{r['cost_per_serving']:.4f} {r['currency']}" if r["cost_per_serving"] is not None else "unknown"),
+            (
+                f"{r['cost_per_kcal_saved_per_serving']:.4f} {r['currency']}"
+                if r["cost_per_kcal_saved_per_serving"] is not None
+                else "-"
+            ),
             " ".join([f"+{c}" for c in r["claims_gained"]] + [f"-{c}" for c in r["claims_lost"]]),
             " ".join([f"+{c}" for c in r["statements_added"]] + [f"-{c}" for c in r["statements_removed"]]),
         ]
@@ -410,18 +419,25 @@ def compare_cmd(
                 "declared",
                 "available vs basis",
                 "cost/serving",
+                "cost per kcal saved",
                 "claims",
                 "statements",
             ],
             rows,
-            "lllrrrrll",
+            "lllrrrrrll",
         )
     )
+    typer.echo("cost per kcal saved: extra cost per serving for each kcal of available energy saved ('-': none saved)")
+    labels = {p.market: {r.nutrient: plain_label(r.label) for r in p.rows} for p in packs}
     for r in doc:
         if r["declared_changed"] and r["formula"] != loaded[0].id:
+            names = labels.get(r["market"], {})
             typer.echo(
                 f"{r['formula']} [{r['market']}, {r['scenario']}]: "
-                + "; ".join(f"{k} {a} -> {b}" for k, (a, b) in r["declared_changed"].items())
+                + "; ".join(
+                    f"{names.get(k, k)} {'not on the panel' if a is None else a} -> {'not on the panel' if b is None else b}"
+                    for k, (a, b) in r["declared_changed"].items()
+                )
             )
 
 
@@ -432,8 +448,13 @@ def _cost_per_kcal(p, b):
     return None if saved <= 0 else (p.cost_per_serving - b.cost_per_serving) / saved
 
 
-ReplaceOpt = typer.Option(..., "--replace", help="Ingredient id to replace (wherever it is used, frying oil included).")
-WithOpt = typer.Option(..., "--with", help="Ingredient id that replaces it.")
+ReplaceOpt = typer.Option(
+    ...,
+    "--replace",
+    help="Ingredient or sub-formula id to replace (wherever it is used, frying oil included).",
+    metavar="ID",
+)
+WithOpt = typer.Option(..., "--with", help="Ingredient or sub-formula id that replaces it.", metavar="ID")
 
 
 @app.command("sweep")
@@ -510,8 +531,22 @@ def sweep_cmd(
             "chart_series": sweep_series(rows),
         },
     )
+
+    def shown(key: str) -> str:  # an ingredient's label name, or a sub-formula's id
+        return lib.ingredients[key].label_name if key in lib else key
+
+    names = {}
+    for p in packs:
+        names.update({f"{p.market}: claim {c.id}": f"{p.market.upper()}: {c.label}" for c in p.claims})
+        names.update({f"{p.market}: statement {st.id}": f"{p.market.upper()}: {st.text}" for st in p.statements})
     charts = sweep_chart(
-        rows, firsts, f"{f.header.name}: {replace} replaced by {with_}", replace, with_, inside(out, stem + ".chart")
+        rows,
+        firsts,
+        f"{f.header.name}: {shown(replace)} replaced by {shown(with_)}",
+        shown(replace),
+        shown(with_),
+        inside(out, stem + ".chart"),
+        names,
     )
     from labelcalc.outputs.textreport import num, table
 
@@ -726,7 +761,7 @@ def range_cmd(
     try:
         lib_path = library or find_library(source if source.is_dir() else source.parent / "x")
         markets = [m.strip() for m in market.split(",") if m.strip()]
-        get_packs(markets, rules)
+        range_packs = {p.market: p for p in get_packs(markets, rules)}
         progress, stop = _progress(quiet)
         try:
             result = run_range(
@@ -741,7 +776,7 @@ def range_cmd(
             reg = Register(register or out / "label-register.sqlite")
             changes = reg.compare_and_record(result.labels)
             reg.close()
-        files = write_outputs(out, result, changes)
+        files = write_outputs(out, result, changes, range_packs)
         if panels:
             from labelcalc.outputs.panelrun import write_panels
 
@@ -859,8 +894,43 @@ def where_used_cmd(
     if not rows:
         typer.echo(f"no recorded label uses '{ingredient}'")
         return
+    products: dict[tuple[str, str], list[str]] = {}
     for r in rows:
-        typer.echo(f"{r['product_id']}  [{r['market']}, {r['scenario']}]  {r['file']}")
+        products.setdefault((r["product_id"], r["file"]), []).append(f"{r['market']} {r['scenario']}")
+    typer.echo(f"'{ingredient}' is used by {len(products)} product(s), {len(rows)} recorded label(s):")
+    for (pid, file), labels in products.items():
+        typer.echo(f"{pid}  {file}")
+        for route in _routes(Path(file), ingredient):
+            typer.echo(f"    through {route}")
+        typer.echo(f"    labels: {', '.join(labels)}")
+
+
+def _routes(file: Path, ingredient: str) -> list[str]:
+    """How an ingredient reaches a product: each chain of sub-formulas and frying steps from the product down
+    ('hl_kettle_base_fried > frying step (oil taken up)'); 'the batch directly' when it is a line of the product.
+    Read from the formula file as it is now (the register keeps only the leaf ingredients)."""
+    try:
+        f = load_formula(file, load_library(find_library(file)))
+    except (LabelError, OSError) as exc:
+        return [f"(cannot read the formula now: {exc})"]
+
+    def walk(g, trail: list[str]) -> list[str]:
+        found = []
+        here = " > ".join(trail) if trail else "the batch directly"
+        for line in g.lines:
+            if line.ingredient is not None and line.ingredient.id == ingredient:
+                found.append(here + f" (batch line{' ' + str(line.line) if line.line else ''})")
+            if line.formula is not None:
+                found += walk(line.formula, trail + [f"sub-formula {line.formula.id}"])
+        for st in g.steps:
+            oil = f"{' > '.join(trail) + ' > ' if trail else ''}step '{st.name}' (oil taken up)"
+            if st.oil_ingredient is not None and st.oil_ingredient.id == ingredient:
+                found.append(oil)
+            if st.oil_formula is not None:
+                found += walk(st.oil_formula, trail + [f"step '{st.name}' oil blend {st.oil_formula.id}"])
+        return found
+
+    return walk(f, []) or ["(not found in the formula as it is now: it changed since the labels were recorded)"]
 
 
 @rules_app.command("list")
@@ -885,7 +955,7 @@ def rules_show(market: str = typer.Argument(..., help="Market code."), rules: Pa
     typer.echo("Rows:")
     for r in p.rows:
         typer.echo(
-            f"  {'  ' * r.indent}{r.label} [{r.nutrient}, {r.requirement}, rounding {r.rounding}"
+            f"  {'  ' * r.indent}{plain_label(r.label)} [{r.nutrient}, {r.requirement}, rounding {r.rounding}"
             + (f", % of {r.percent}" if r.percent else "")
             + f"] — {r.citation} ({r.confidence})"
         )
@@ -1044,6 +1114,68 @@ def _root(version: bool = typer.Option(False, "--version", help="Print the versi
     if version:
         typer.echo(f"labelcalc {__version__}")
         raise typer.Exit(0)
+
+
+def _metavar(param) -> str:
+    """A plain placeholder for an option's value: PATH, NUMBER, INTEGER or TEXT (or the one set on it)."""
+    if param.metavar:
+        return param.metavar
+    desc = param.type_descriptor
+    if desc.is_path:
+        return "PATH..." if desc.is_list else "PATH"
+    name = param.bare_type().lower()
+    return {"float": "NUMBER", "int": "INTEGER", "bool": ""}.get(name, "TEXT")
+
+
+class PlainHelpCommand(typer.core.TyperCommand):
+    """Help in plain words: 'labelcalc sweep [OPTIONS] FORMULA', '--out PATH', flags without a type.
+
+    typer prints '{formula}', '<bool>' and '<list[Path]>' placeholders of its own; these mean nothing to
+    the product developers and regulatory staff who read the help."""
+
+    def collect_usage_pieces(self, ctx):
+        pieces = ["[OPTIONS]"] if any(isinstance(p, typer.core.TyperOption) for p in self.params) else []
+        for p in self.params:
+            if isinstance(p, typer.core.TyperArgument):
+                name = (p.metavar or p.name or "").upper()
+                pieces.append(name + ("..." if p.nargs != 1 else "") if p.required else f"[{name}]")
+        return pieces
+
+    def format_options(self, ctx, formatter) -> None:
+        args, opts = [], []
+        for p in self.params:
+            if getattr(p, "hidden", False):
+                continue
+            extra = []
+            if isinstance(p, typer.core.TyperOption):
+                if p.required:
+                    extra.append("required")
+                elif p.show_default and not p.is_flag and p.default is not None and p.default != "":
+                    extra.append(f"default: {p.default}")
+                names = ", ".join(p.opts + p.secondary_opts)
+                mv = "" if p.is_flag or p.count else _metavar(p)
+                opts.append((f"{names} {mv}".strip(), (p.help or "") + (f" [{'; '.join(extra)}]" if extra else "")))
+            else:
+                args.append(((p.metavar or p.name or "").upper(), getattr(p, "help", "") or ""))
+        if args:
+            with formatter.section("Arguments"):
+                formatter.write_dl(args)
+        help_option = self.get_help_option(ctx)
+        if help_option is not None:
+            opts.append((", ".join(help_option.opts), help_option.help or ""))
+        if opts:
+            with formatter.section("Options"):
+                formatter.write_dl(opts)
+
+
+def _plain_help(t: typer.Typer) -> None:
+    for info in t.registered_commands:
+        if info.cls in (None, typer.core.TyperCommand):
+            info.cls = PlainHelpCommand
+
+
+_plain_help(app)
+_plain_help(rules_app)
 
 
 def main() -> None:  # console entry point

@@ -196,17 +196,28 @@ def test_parallel_run_equals_serial(tmp_path):
 
 
 def test_xlsx_summary_matches_csv(tmp_path):
+    """The workbook's market sheet carries the CSV's figures as numbers, under headers with basis and unit."""
     import openpyxl
 
     src = make_range(tmp_path / "src", GOOD)
     out = tmp_path / "out"
     runner.invoke(app, ["range", str(src), "--market", "eu", "--out", str(out), "-q", "--no-register"])
     with (out / "summary.csv").open() as fh:
-        rows = list(csv.reader(fh))
-    ws = openpyxl.load_workbook(out / "summary.xlsx")["summary"]
-    cells = [["" if c.value is None else str(c.value) for c in r] for r in ws.iter_rows()]
-    norm = lambda x: str(float(x)) if x.replace(".", "", 1).isdigit() else x  # noqa: E731
-    assert [[norm(x) for x in r] for r in cells] == [[norm(x) for x in r] for r in rows]
+        rows = list(csv.DictReader(fh))
+    wb = openpyxl.load_workbook(out / "summary.xlsx")
+    assert wb.sheetnames == ["EU", "errors"]
+    ws = wb["EU"]
+    assert ws.freeze_panes == "C2"
+    head = [c.value for c in ws[1]]
+    body = [dict(zip(head, [c.value for c in r])) for r in ws.iter_rows(min_row=2)]
+    assert [b["Product id"] for b in body] == [r["product_id"] for r in rows]
+    for b, r in zip(body, rows):
+        assert b["Fat per 100 g [g]"] == float(r["fat"].split()[0])
+        if r["salt"].startswith("<"):  # a "less than" form has no number: the printed text stands beside
+            assert b["Salt per 100 g [g]"] is None and b["Salt as printed"] == r["salt"]
+        else:
+            assert b["Salt per 100 g [g]"] == float(r["salt"].split()[0])
+        assert isinstance(b["Declared energy per 100 g [kJ]"], float)
 
 
 def test_duplicate_product_ids_are_reported(tmp_path):
@@ -216,3 +227,12 @@ def test_duplicate_product_ids_are_reported(tmp_path):
     res = run_range(src, src / "ingredients", ["eu"])
     assert any("'good_a' is defined twice" in e["message"] for e in res.errors)
     assert sum(1 for r in res.rows if r["product_id"] == "good_a") == 1
+
+
+def test_identical_input_gives_a_byte_identical_workbook(tmp_path):
+    src = make_range(tmp_path / "src", GOOD)
+    for out in ("a", "b"):
+        runner.invoke(
+            app, ["range", str(src), "--market", "eu,us", "--out", str(tmp_path / out), "-q", "--no-register"]
+        )
+    assert (tmp_path / "a" / "summary.xlsx").read_bytes() == (tmp_path / "b" / "summary.xlsx").read_bytes()

@@ -35,6 +35,9 @@ class Strict(BaseModel):
 class Serving(Strict):
     size: str = Field(description="serving size with unit, e.g. '28 g' [g] (or '250 ml' with density)")
     household: str | None = Field(None, description="household measure, e.g. 'about 15 crisps'")
+    household_names: dict[str, str] | None = Field(
+        None, description="the household measure in other languages, by language code (fr: '14 croustilles')"
+    )
 
     @field_validator("size")
     @classmethod
@@ -48,6 +51,9 @@ class Header(Strict):
     name: str
     version: str | int | None = None
     label_name: str | None = Field(None, description="name in a parent's ingredient list (sub-formulas)")
+    label_names: dict[str, str] | None = Field(
+        None, description="that name in other languages, by language code (sub-formulas; fr: ...)"
+    )
     category: str | None = Field(None, description="product category key of the markets' reference amounts")
     form: Literal["solid", "liquid"] = "solid"
     density_g_per_ml: float | None = Field(None, gt=0, description="[g/ml], needed for per 100 ml figures of liquids")

@@ -94,6 +94,9 @@ class Ingredient(BaseModel):
     model_config = ConfigDict(extra="forbid")
     id: str
     label_name: str
+    label_names: dict[str, str] = Field(
+        default_factory=dict, description="the name in other languages, by language code (fr: Pommes de terre)"
+    )
     source: str = Field(min_length=3)
     per_100g: dict[str, float | None] = Field(default_factory=dict)
     sources: dict[str, str] = Field(default_factory=dict)

@@ -206,6 +206,15 @@ def write_calibrated(f: Formula, cal: Calibration, out: Path) -> list[Path]:
                     if cal.oil_per_100g is not None:
                         st["oil_uptake"] = {"oil": st["oil_uptake"]["oil"], "per_100g": round(cal.oil_per_100g, 3)}
                     break
+        # the calibrated sub-formula gets a new id, so it can never be mistaken for (or shadow) the original
+        # in a folder that holds both; the lines that use it follow
+        new_sub = f"{cal.in_formula}_calibrated"
+        if not is_product and g.id == cal.in_formula:
+            head["id"] = new_sub
+            head["version"] = f"{head.get('version', '1')}-calibrated"
+        for line in data.get("batch", []) or []:
+            if isinstance(line, dict) and line.get("subformula") == cal.in_formula:
+                line["subformula"] = new_sub
         if is_product:
             head["id"] = f"{g.id}_calibrated"
             head["version"] = f"{head.get('version', '1')}-calibrated"

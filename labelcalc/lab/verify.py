@@ -16,7 +16,7 @@ from labelcalc.errors import InputError, Problem
 from labelcalc.formulation.composition import Composition
 from labelcalc.lab.certificates import ANALYTES, LabFile, Result
 from labelcalc.labelling.model import Declaration
-from labelcalc.labelling.rounding import apply_rounding, format_number, to_decimal
+from labelcalc.labelling.rounding import apply_rounding, format_number, plain_label, to_decimal
 from labelcalc.labelling.rulepack_assess import ComplianceRule
 
 WITHIN, OUTSIDE, CLOSE, NOT_JUDGED = "within", "outside", "too close to the limit", "not judged"
@@ -156,7 +156,7 @@ def verify(
             rows.append(
                 RowVerdict(
                     r.nutrient,
-                    r.label,
+                    plain_label(r.label),
                     r.unit,
                     "-",
                     "",
@@ -176,7 +176,7 @@ def verify(
             rows.append(
                 RowVerdict(
                     r.nutrient,
-                    r.label,
+                    plain_label(r.label),
                     r.unit,
                     "-",
                     "",
@@ -214,7 +214,7 @@ def verify(
             rows.append(
                 RowVerdict(
                     r.nutrient,
-                    r.label,
+                    plain_label(r.label),
                     r.unit,
                     basis,
                     r.text(basis),
@@ -269,7 +269,7 @@ def verify(
         rows.append(
             RowVerdict(
                 r.nutrient,
-                r.label,
+                plain_label(r.label),
                 r.unit,
                 basis,
                 r.text(basis),

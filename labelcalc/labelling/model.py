@@ -12,7 +12,7 @@ from typing import Any
 from labelcalc.formulation.composition import Composition
 from labelcalc.formulation.energy import EnergyResult
 from labelcalc.labelling.engine import display_unit
-from labelcalc.labelling.rounding import Rounded
+from labelcalc.labelling.rounding import Rounded, fill_amount
 from labelcalc.labelling.rulepack import RulePack
 
 ELIGIBLE, NOT_ELIGIBLE, CANNOT_TELL = "eligible", "not eligible", "cannot tell"
@@ -56,7 +56,7 @@ class DeclaredRow:
     def label_for(self, basis: str) -> str:
         if not self.amount_in_label:
             return self.label
-        return self.label.replace("{amount}", self.text(basis).replace(" ", ""))
+        return fill_amount(self.label, self.text(basis))
 
 
 @dataclass
@@ -126,7 +126,7 @@ class StatementFlag:
     confidence: str
     caution: str | None
     placement: str | None
-    status: str = "required"  # or "review"
+    status: str = "required"  # or "review", or "if a claim is made"
 
 
 @dataclass

@@ -421,8 +421,18 @@ def statement_flags(eng: E.LabelEngine, i: int, claims: list[ClaimVerdict]) -> l
         for tr in triggers:
             if tr.hit[i]:
                 reason, figures = _trigger_words(eng, st, tr, i, claims)
+                # owed only because some claim *could* be made: conditional, not required
+                conditional = tr.trigger.with_claim and st.status == "required" and not any(c.intended for c in claims)
                 flag = StatementFlag(
-                    st.id, st.text, reason, figures, st.citation, st.confidence, st.caution, st.placement, st.status
+                    st.id,
+                    st.text,
+                    reason,
+                    figures,
+                    st.citation,
+                    st.confidence,
+                    st.caution,
+                    st.placement,
+                    "if a claim is made" if conditional else st.status,
                 )
                 if st.compensation:
                     _compensation(st, comp, eng.serving[i], flag)

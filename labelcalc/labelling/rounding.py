@@ -319,3 +319,18 @@ def format_number(d: Decimal, step: Decimal | None = None) -> str:
     if "." in s:
         s = s.rstrip("0").rstrip(".")
     return "0" if s in ("-0", "") else s
+
+
+def fill_amount(label: str, amount_text: str) -> str:
+    """A row label that carries its amount ('Includes {amount} Added Sugars') with the amount filled in.
+
+    The unit closes up to its number ('1g', as the US panel prints it) but the words of a "less than"
+    form keep their spaces: 'Includes less than 1g Added Sugars'.
+    """
+    compact = "".join(amount_text.rsplit(" ", 1)) if " " in amount_text else amount_text
+    return label.replace("{amount}", compact)
+
+
+def plain_label(label: str) -> str:
+    """A row label for places that print no amount beside it (tables, sheets): the template without its slot."""
+    return " ".join(label.replace("{amount}", "").split())

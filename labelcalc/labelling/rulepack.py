@@ -139,34 +139,83 @@ class Row(Strict):
         False, description="the row prints only its percentage (e.g. Canada's 'Saturated + Trans')"
     )
     citation: str = Field(min_length=3)
+    label_second: str | None = Field(
+        None, description="the label in the market's second official language, printed after ' / ' (Canada)"
+    )
     confidence: Confidence
 
 
 class Footnote(Cited):
     text: str
+    text_second: str | None = Field(None, description="the footnote in the second official language (next line)")
     when: Literal["always", "percent_shown"] = "always"
 
 
 class PanelLayout(Strict):
-    """How the panel is drawn, where the law prescribes a form (sizes in mm and pt)."""
+    """How the panel is drawn, where the law prescribes a form (sizes in mm and pt).
+
+    The renderer (``labelcalc.outputs.panelpdf``) reads only these fields: a new market's form is
+    data here, never a branch on the market code.
+    """
 
     style: Literal["boxed", "table"] = Field("table", description="boxed: framed facts box; table: ruled table")
-    width_mm: float = Field(80, gt=30, le=200)
+    width_mm: float = Field(80, gt=30, le=200, description="narrowest width; the panel grows to fit its rows")
+    max_width_mm: float = Field(120, gt=30, le=250, description="widest the panel may grow before labels wrap")
     title_size_pt: float = Field(11, gt=5, le=40)
+    title_second: str | None = Field(None, description="the title in the second official language, stacked below")
     body_size_pt: float = Field(7.5, gt=5, le=14)
     energy_large: bool = Field(False, description="print the first energy row large (as in a facts box)")
+    energy_size_factor: float = Field(1.9, ge=1, le=3, description="size of the large energy row, x body size")
+    energy_amount: Literal["right", "after_label"] = Field(
+        "right", description="large energy row: figure right-aligned, or right after the label"
+    )
+    energy_rule_partial: bool = Field(
+        False, description="the heavy rule under the large energy row ends after its figure"
+    )
     heavy_rule_after: list[str] = Field(
         default_factory=list, description="nutrient keys after which a heavy rule is drawn"
     )
+    heavy_rule_pt: float = Field(2.5, gt=0, le=12, description="weight of a heavy rule")
+    no_rule_after: list[str] = Field(
+        default_factory=list, description="nutrient keys after which no rule is drawn (rows grouped together)"
+    )
+    rule_before_footnotes_pt: float | None = Field(None, description="weight of the rule above the footnotes")
     serving_lines_on_top: bool = Field(False, description="servings per container and serving size above the rows")
+    serving_style: Literal["label_and_amount", "per_line"] = Field(
+        "label_and_amount",
+        description="label_and_amount: 'Serving size' left, the size right, bold; per_line: 'Per 28 g' "
+        "(and its second-language line)",
+    )
+    serving_household: bool = Field(True, description="print the formula's household measure with the size")
+    second_language: str | None = Field(
+        None,
+        description="language code of the second serving line; the household measure is printed only when the "
+        "formula gives it in that language too (serving.household_names)",
+    )
+    serving_rule_pt: float | None = Field(None, description="rule under the serving lines (default 4 boxed, 1 table)")
+    serving_note: str | None = Field(
+        None, description="a review note printed under the panel about the serving declaration"
+    )
     column_headers: dict[str, str] = Field(default_factory=dict, description="basis -> header text")
     header_note: str | None = Field(None, description="a line under the title, e.g. 'Amount per serving'")
+    percent_header: Literal["columns", "below_energy", "energy_line"] = Field(
+        "columns",
+        description="where the percentage heading goes: in the column headings; on its own line under the rule "
+        "below the large energy row; or right-aligned on the energy row",
+    )
+    percent_label_second: str | None = Field(None, description="percentage heading in the second language")
+    percent_label_short: str | None = Field(None, description="percentage heading over each column of a dual panel")
+    percent_spaced: bool = Field(False, description="print '5 %' rather than '5%'")
     amount_after_label: bool = Field(
         False, description="print the amount right after the row label (one-column facts boxes)"
     )
     compact_units: bool = Field(False, description="print '8g' rather than '8 g' after the label")
-    servings_text: str = Field("{n} servings per container", description="wording of the servings line ({n})")
+    servings_text: str | None = Field(
+        "{n} servings per container", description="wording of the servings line ({n}); null: no servings line"
+    )
+    servings_text_one: str | None = Field(None, description="wording of the servings line when there is one serving")
     serving_text: str = Field("Serving size", description="label of the serving size line")
+    serving_text_second: str | None = Field(None, description="the serving label in the second language")
     citation: str | None = None
 
 

@@ -149,11 +149,13 @@ class AllergenEntry(Strict):
     threshold_inclusive: bool = Field(True, description="true: declared at the threshold; false: only above it")
     component: str | None = Field(None, description="component holding the amount for a threshold (e.g. sulphites)")
     name_species: bool = Field(False, description="the specific kind must be named (e.g. the tree nut)")
+    name_second: str | None = Field(None, description="the name in the market's second official language")
 
 
 class Allergens(Strict):
     entries: dict[str, AllergenEntry]
     summary_prefix: str = "Contains:"
+    summary_prefix_second: str | None = Field(None, description="the summary's opening in the second language")
     summary: Literal["required", "optional", "when_not_in_list"] = "optional"
     emphasis: Literal["bold", "parentheses", "bold_and_summary"] = "bold"
     citation: str = Field(min_length=3)
@@ -173,6 +175,12 @@ class QuidRule(Strict):
 
 class IngredientListRule(Strict):
     heading: str = "Ingredients:"
+    heading_second: str | None = Field(
+        None, description="heading of the ingredient list in the second official language (a list is drafted for it)"
+    )
+    second_language: str | None = Field(
+        None, description="language code of the second list's names (library and sub-formula 'label_names')"
+    )
     order: Literal["weight_at_use"] = "weight_at_use"
     water: Literal["as_used", "finished_product"] = Field(
         "as_used", description="finished_product: added water by its weight in the finished product"

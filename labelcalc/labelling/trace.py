@@ -20,7 +20,7 @@ from labelcalc.formulation.composition import ATWATER_REPLACED, COL
 from labelcalc.formulation.energy import FactorSet, energy_vectors
 from labelcalc.formulation.leaves import LeafLine, leaf_lines
 from labelcalc.labelling.model import Declaration
-from labelcalc.labelling.rounding import RoundingRule
+from labelcalc.labelling.rounding import RoundingRule, plain_label
 
 
 def band_text(rule: RoundingRule, band_index: int) -> str:
@@ -129,7 +129,7 @@ def trace_of(d: Declaration) -> dict:
         rule = pack.rounding[prow.rounding]
         entry: dict = {
             "nutrient": r.nutrient,
-            "label": r.label,
+            "label": plain_label(r.label),  # a row that carries its amount is named without the slot
             "unit": r.unit,
             "unrounded_per_100g": r.value_per_100g,
             "columns": {},

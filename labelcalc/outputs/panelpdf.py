@@ -26,7 +26,8 @@ from reportlab.platypus import Flowable, PageBreak, Paragraph, SimpleDocTemplate
 from labelcalc import __version__
 from labelcalc.labelling.checks import Check
 from labelcalc.labelling.ingredients import allergen_name
-from labelcalc.labelling.model import BASIS_LABEL, ELIGIBLE, Assessment, Declaration
+from labelcalc.labelling.model import BASIS_LABEL, ELIGIBLE, Assessment, Declaration, display_unit
+from labelcalc.labelling.rounding import fill_amount, plain_label
 from labelcalc.outputs.calcsheet import calculation_rows
 
 CAUTION = "DRAFT — verify against current local regulation and a qualified regulatory professional before use."
@@ -76,174 +77,308 @@ def wrap_lines(text: str, font: str, size: float, width: float) -> list[str]:
     return out
 
 
+def _lines_with_descent(size: float) -> float:
+    """Space below a baseline that a rule must keep clear of (descenders of g, p, y)."""
+    return size * 0.3
+
+
 class PanelDrawing(Flowable):
-    """The nutrition panel of one declaration, drawn from the pack's rows and layout."""
+    """The nutrition panel of one declaration, drawn from the pack's rows and ``panel.layout``.
+
+    Layout first measures every cell (labels, amounts, percentages, column headings) and sizes the
+    columns to their content, so headings never collide and labels wrap only when the panel has
+    reached ``max_width_mm``.  Rules keep clear of the text above and below them.
+    """
 
     def __init__(self, decl: Declaration):
         super().__init__()
         self.d = decl
         self.lay = decl.pack.panel.layout
-        self.width_pt = self.lay.width_mm * mm
         self.size = self.lay.body_size_pt
+        self.pack_rows = {r.nutrient: r for r in decl.pack.rows}
         self.lines = self._build()
+        self.cols = self._columns()
+
+    # ---- content -------------------------------------------------------------------------------
+    def amount(self, r, basis: str) -> str:
+        t = r.text(basis)
+        return "".join(t.rsplit(" ", 1)) if self.lay.compact_units and " " in t else t
+
+    def percent(self, r, basis: str) -> str:
+        p = r.percent.get(basis) or ""
+        return p.replace("%", " %") if self.lay.percent_spaced and p.endswith("%") and " " not in p else p
+
+    def label(self, r, basis: str) -> str:
+        second = self.pack_rows[r.nutrient].label_second
+        if r.amount_in_label:
+            return fill_amount(r.label, self.amount(r, basis))
+        return f"{r.label} / {second}" if second else r.label
 
     def _build(self):
         d = self.d
         rows = []
-        pct_basis = d.pack.panel.percent_basis
-        cols = d.columns
-        show_pct = any(r.percent for r in d.shown_rows)
+        in_columns = not (self.lay.amount_after_label and len(d.columns) == 1)
         for r in d.shown_rows:
-            if r.amount_in_label or r.percent_only:
-                cells = ["" for _ in cols]
-                label = r.label_for(cols[0])
-            else:
-                cells = [r.text(b) for b in cols]
-                label = r.label
-            pct = [
-                r.percent.get(b) or ""
-                for b in cols
-                if show_pct and (pct_basis is None or b == pct_basis or d.dual_column)
-            ]
-            rows.append((r, label, cells, pct))
+            pct = {b: self.percent(r, b) for b in d.columns}
+            if r.amount_in_label and in_columns:  # dual columns: the amounts go in the columns
+                rows.append((r, plain_label(r.label), [self.amount(r, b) for b in d.columns], pct))
+                continue
+            cells = [] if r.amount_in_label or r.percent_only else [self.amount(r, b) for b in d.columns]
+            rows.append((r, self.label(r, d.columns[0]), cells, pct))
         return rows
 
-    def _col_layout(self):
+    def _columns(self):
+        """(kind, basis) of each column right of the labels, in order: each value column followed by its
+        percentage column where percentages are shown for it (21 CFR 101.9(e) pairs them in dual panels)."""
         d = self.d
-        ncols = len(d.columns)
-        show_pct = any(p for _, _, _, p in self.lines for p in p)
-        npct = max((len(p) for _, _, _, p in self.lines), default=0) if show_pct else 0
-        value_w = 15 * mm if ncols > 1 else 18 * mm
-        pct_w = 10 * mm
-        if self.lay.amount_after_label and ncols == 1:  # amounts follow the labels: no value column
-            value_w, pct_w = 0.0, 14 * mm
-        pad = 2.2 * mm if self.lay.style == "boxed" else 1.2 * mm
-        label_w = self.width_pt - 2 * pad - ncols * value_w - npct * pct_w
-        return label_w, value_w, pct_w, npct
+        pct_basis = d.pack.panel.percent_basis
+        shown = {b for _, _, _, pct in self.lines for b, p in pct.items() if p}
+        one_after = self.lay.amount_after_label and len(d.columns) == 1
+        cols = []
+        for b in d.columns:
+            if not one_after:
+                cols.append(("value", b))
+            if b in shown and (pct_basis is None or b == pct_basis or d.dual_column):
+                cols.append(("pct", b))
+        return cols
 
-    def _label_lines(self, label, bold, width):
-        font = BOLD if bold else FONT
-        return wrap_lines(label, font, self.size, width)
+    def _header(self, kind: str, basis: str) -> str:
+        d, lay = self.d, self.lay
+        if kind == "value":
+            return lay.column_headers.get(basis, d.pack.panel.column_labels.get(basis, BASIS_LABEL[basis]))
+        if lay.percent_header != "columns":
+            return lay.percent_label_short or "" if d.dual_column else ""
+        return (lay.percent_label_short if d.dual_column else None) or d.pack.panel.percent_label or "%"
+
+    # ---- measuring -----------------------------------------------------------------------------
+    def _widths(self):
+        """Column widths, the label width and the panel width (points)."""
+        size, lay = self.size, self.lay
+        hsize = size * 0.85
+        gap = 2.2 * mm
+        widths: list[float] = []
+        wide: list[float] = []  # the same columns with every heading on one line
+        for kind, b in self.cols:
+            cells = [c[self.d.columns.index(b)] for _, _, c, _ in self.lines if c] if kind == "value" else []
+            if kind == "pct":
+                cells = [p[b] for _, _, _, p in self.lines if p.get(b)]
+            cw = max((pdfmetrics.stringWidth(c, BOLD, size) for c in cells), default=0)
+            h = self._header(kind, b)
+            hw = max((pdfmetrics.stringWidth(w, BOLD, hsize) for w in h.split()), default=0)
+            w = max(cw, hw)
+            while h and len(wrap_lines(h, BOLD, hsize, w)) > 2:  # a heading takes two lines at most
+                w += 1
+            one_line = max(cw, pdfmetrics.stringWidth(h, BOLD, hsize))
+            widths.append(w + gap)
+            wide.append(one_line + gap)
+        pad = self._pad()
+        need_label = 0.0  # widest label line (with its amount where amounts follow the labels)
+        for r, label, cells, _ in self.lines:
+            font = BOLD if r.bold else FONT
+            w = pdfmetrics.stringWidth(label, font, size) + r.indent * 3 * mm
+            if self.lay.amount_after_label and not [c for k, c in self.cols if k == "value"] and cells:
+                w += pdfmetrics.stringWidth(" " + cells[0], FONT, size)
+            need_label = max(need_label, w)
+        shown_pct = any(k == "pct" for k, _ in self.cols)
+        for fn in self.d.pack.panel.footnotes:  # a short footnote line should not wrap either
+            if fn.when == "always" or shown_pct:
+                for t in [fn.text, fn.text_second or ""]:
+                    if pdfmetrics.stringWidth(t, FONT, size * 0.8) < lay.max_width_mm * mm - 2 * pad:
+                        need_label = max(need_label, pdfmetrics.stringWidth(t, FONT, size * 0.8) - gap - sum(widths))
+        if 2 * pad + need_label + gap + sum(wide) <= lay.max_width_mm * mm:
+            widths = wide  # room for one-line headings
+        W = max(lay.width_mm * mm, min(lay.max_width_mm * mm, 2 * pad + need_label + gap + sum(widths)))
+        label_w = W - 2 * pad - sum(widths)
+        return widths, label_w, W
+
+    def _pad(self) -> float:
+        return 2.2 * mm if self.lay.style == "boxed" else 1.2 * mm
 
     def wrap(self, aw, ah):
         if not hasattr(self, "_laid_out"):
             self._laid_out = self._layout()
+        self.width_pt = self._laid_out[2]
         self.height = self._laid_out[1]
         return self.width_pt, self.height
 
     def draw(self):
-        ops, H = self._laid_out if hasattr(self, "_laid_out") else self._layout()
-        self._paint(self.canv, ops, H)
+        ops, H, W = self._laid_out if hasattr(self, "_laid_out") else self._layout()
+        self._paint(self.canv, ops, H, W)
+
+    def serving_lines(self) -> tuple[str, str, bool]:
+        """The serving declaration in the first and the second language, and whether the household measure
+        is in both (a second-language panel prints it only when the formula gives it in that language)."""
+        d, lay = self.d, self.lay
+        sv = d.composition.formula.header.serving
+        hh = sv.household if sv and lay.serving_household else None
+        hh2 = (sv.household_names or {}).get(lay.second_language or "") if sv else None
+        if lay.second_language and not hh2:
+            hh = None  # a household measure in one language only would make the two lines disagree
+        grams = f"{d.serving_g:g}g" if lay.compact_units else f"{d.serving_g:g} g"
+        first = f"{hh} ({grams})" if hh else grams
+        second = f"{hh2} ({grams})" if hh and hh2 else grams
+        return first, second, bool(hh and hh2)
 
     def _layout(self):
-        """The drawing operations and height of the panel (measured once, drawn once)."""
+        """The drawing operations, height and width of the panel (measured once, drawn once)."""
         d, lay, size = self.d, self.lay, self.size
-        W = self.width_pt
-        pad = 2.2 * mm if lay.style == "boxed" else 1.2 * mm
-        label_w, value_w, pct_w, npct = self._col_layout()
+        widths, label_w, W = self._widths()
+        pad = self._pad()
         lh = size * 1.45
-        y = 0.0  # measured downwards from the top
-        ops = []
+        y = 0.0  # baseline position, measured downwards from the top
+        ops: list[tuple] = []
+        xr = []  # right edge of each column
+        x = pad + label_w
+        for w in widths:
+            x += w
+            xr.append(x)
 
         def text(x, yy, s, font=FONT, sz=size, align="left"):
             ops.append(("text", x, yy, s, font, sz, align))
 
-        def rule(yy, weight):
-            ops.append(("rule", yy, weight))
+        def rule(weight, next_size, x_end=None, below=size):
+            """A rule under the text just drawn at ``y``, clear of its descenders and of the next line."""
+            nonlocal y
+            y += _lines_with_descent(below) + weight / 2
+            ops.append(("rule", y, weight, x_end))
+            y += weight / 2 + next_size * 0.95
 
-        tsize = lay.title_size_pt
-        while tsize > 6 and pdfmetrics.stringWidth(d.pack.panel.title, BOLD, tsize) > W - 2 * pad:
-            tsize -= 0.5  # the title always fits the panel width
-        y += tsize * 1.1 + pad
-        text(pad, y, d.pack.panel.title, BOLD, tsize)
+        def fit(s, font, sz, width):
+            while sz > 5 and pdfmetrics.stringWidth(s, font, sz) > width:
+                sz -= 0.25
+            return sz
+
+        title = d.pack.panel.title
+        tsize = min(
+            fit(title, BOLD, lay.title_size_pt, W - 2 * pad),
+            fit(lay.title_second or "", BOLD, lay.title_size_pt, W - 2 * pad),
+        )
+        y = pad + tsize * 0.8
+        text(pad, y, title, BOLD, tsize)
+        if lay.title_second:
+            y += tsize * 1.0
+            text(pad, y, lay.title_second, BOLD, tsize)
+        ssize = size * 1.15
         if lay.style == "boxed":
-            y += 1.5
-            rule(y, 0.6)
+            rule(0.6, size, below=tsize * 0.7)
+        else:
+            y += size * 1.4
         if lay.serving_lines_on_top or lay.style == "boxed":
-            if d.servings_text:
-                y += lh
-                text(pad, y, lay.servings_text.format(n=d.servings_text))
-            if d.serving_g:
+            n = d.servings_text
+            stext = lay.servings_text_one if (n == "1" and lay.servings_text_one) else lay.servings_text
+            if n and stext:
+                text(pad, y, stext.format(n=n))
                 y += lh * 1.1
-                hh = d.composition.formula.header.serving.household if d.composition.formula.header.serving else None
-                s_txt = f"{hh} ({d.serving_g:g}g)" if hh else f"{d.serving_g:g} g"
-                ssize = size * 1.15
-                while ssize > 5 and (
-                    pdfmetrics.stringWidth(lay.serving_text, BOLD, ssize)
-                    + pdfmetrics.stringWidth(s_txt, BOLD, ssize)
-                    + 2 * mm
-                    > W - 2 * pad
-                ):
-                    ssize -= 0.25  # label and size share the line without touching
-                text(pad, y, lay.serving_text, BOLD, ssize)
-                text(W - pad, y, s_txt, BOLD, ssize, "right")
-            y += 2.5
-            rule(y, 4 if lay.style == "boxed" else 1)
-        if lay.header_note:
-            y += lh
+            if d.serving_g:
+                first, second, _ = self.serving_lines()
+                if lay.serving_style == "per_line":
+                    text(pad, y, f"{lay.serving_text} {first}", FONT, size * 1.1)
+                    if lay.serving_text_second:
+                        y += size * 1.1 * 1.2
+                        text(pad, y, f"{lay.serving_text_second} {second}", FONT, size * 1.1)
+                    ssize = size * 1.1
+                else:
+                    ssize = fit(lay.serving_text + "  " + first, BOLD, ssize, W - 2 * pad)
+                    text(pad, y, lay.serving_text, BOLD, ssize)
+                    text(W - pad, y, first, BOLD, ssize, "right")
+            rule(lay.serving_rule_pt or (4 if lay.style == "boxed" else 1), size, below=ssize)
+        if lay.header_note and not d.dual_column:  # dual columns are headed "Per serving" / "Per container"
             text(pad, y, lay.header_note, BOLD, size * 0.95)
-        # column headers
-        x0 = pad + label_w
-        headers = [lay.column_headers.get(b, d.pack.panel.column_labels.get(b, BASIS_LABEL[b])) for b in d.columns]
-        hdr_lines = [wrap_lines(h, BOLD, size * 0.85, value_w - 2) for h in headers]
-        if npct:
-            plabel = d.pack.panel.percent_label or "%"
-            hdr_lines += [wrap_lines(plabel, BOLD, size * 0.85, pct_w - 1)] * npct
-        nh = max(len(h) for h in hdr_lines)
-        if len(d.columns) > 1 or npct or lay.style == "table":
-            for i, hl in enumerate(hdr_lines):
-                xr = (
-                    x0 + (i + 1) * value_w
-                    if i < len(d.columns)
-                    else x0 + len(d.columns) * value_w + (i - len(d.columns) + 1) * pct_w
-                )
+            y += lh * 0.9
+        # column headings (each heading at most two lines, bottom-aligned)
+        heads = [
+            wrap_lines(self._header(k, b), BOLD, size * 0.85, w - 2.2 * mm) for (k, b), w in zip(self.cols, widths)
+        ]
+        heads = [h if h != [""] else [] for h in heads]
+        nh = max((len(h) for h in heads), default=0)
+        if nh and (len(d.columns) > 1 or lay.style == "table" or lay.percent_header == "columns"):
+            for hl, xx in zip(heads, xr):
                 for k, part in enumerate(hl):
-                    text(xr, y + lh * (k + 1) * 0.9, part, BOLD, size * 0.85, "right")
-            y += lh * nh * 0.9 + 1.5
-            rule(y, 0.5)
+                    text(xx - 1, y + (nh - len(hl) + k) * size * 1.05, part, BOLD, size * 0.85, "right")
+            y += (nh - 1) * size * 1.05
+            rule(0.5, size, below=size * 0.85)
+        pct_heading_done = False
         first_energy = True
-        for r, label, cells, pct in self.lines:
+        baselines: list[float] = []
+        rows = self.lines
+        for i, (r, label, cells, pct) in enumerate(rows):
             big = lay.energy_large and first_energy and d.pack.nutrients[r.nutrient].energy is not None
-            sz = size * (1.9 if big else 1.0)
+            sz = size * (lay.energy_size_factor if big else 1.0)
+            font = BOLD if (r.bold or big) else FONT
             indent = pad + r.indent * 3 * mm
-            lab_lines = wrap_lines(label, BOLD if (r.bold or big) else FONT, sz, label_w - r.indent * 3 * mm)
-            row_h = lh * (1.6 if big else 1.0) * len(lab_lines)
-            y += row_h
+            if r.percent_only:
+                # the percentage of a group (Canada's saturated + trans) sits between the group's two lines
+                mid = (baselines[-1] + baselines[-2]) / 2 if len(baselines) > 1 else y
+                for (kind, b), xx in zip(self.cols, xr):
+                    if kind == "pct" and pct.get(b):
+                        text(xx - 1, mid + size * 0.35, pct[b], BOLD, size, "right")
+                continue
+            if big:  # room for the large row's ascent, and for a heading stacked above its right end
+                y += (sz - size) * 0.85 + (size * 1.1 if lay.percent_header == "energy_line" else 0)
+            value_cols = [k for k, _ in self.cols if k == "value"]
+            avail = label_w - r.indent * 3 * mm
+            lab_lines = wrap_lines(label, font, sz, avail)
             for k, part in enumerate(lab_lines):
-                yy = y - row_h + (k + 1) * lh * (1.6 if big else 1.0) - (lh * 0.25 if big else 0)
-                text(indent, yy, part, BOLD if (r.bold or big) else FONT, sz)
-            if lay.amount_after_label and len(cells) == 1 and cells[0] and not big:
-                amount = "".join(cells[0].rsplit(" ", 1)) if lay.compact_units and " " in cells[0] else cells[0]
-                lw = pdfmetrics.stringWidth(lab_lines[-1], BOLD if r.bold else FONT, sz)
-                text(indent + lw + 0.8 * mm, y - row_h + len(lab_lines) * lh, amount, FONT, sz)
-                cells = []
-            for i, cell in enumerate(cells):
-                text(
-                    x0 + (i + 1) * value_w - 1, y - (lh * 0.25 if big else 0), cell, BOLD if big else FONT, sz, "right"
-                )
-            for i, p in enumerate(pct):
-                text(x0 + len(cells) * value_w + (i + 1) * pct_w - 1, y, p, BOLD, size, "right")
-            y += 1.2
-            heavy = r.nutrient in lay.heavy_rule_after
+                text(indent, y + k * sz * 1.2, part, font, sz)
+            y += (len(lab_lines) - 1) * sz * 1.2
+            baselines.append(y)
+            after_x = indent + pdfmetrics.stringWidth(lab_lines[-1], font, sz) + sz * 0.3
+            if not value_cols and cells:
+                if big and lay.energy_amount == "right":
+                    text(W - pad, y, cells[0], BOLD, sz, "right")
+                    after_x = W - pad
+                else:
+                    text(after_x, y, cells[0], BOLD if big else FONT, sz)
+                    after_x += pdfmetrics.stringWidth(cells[0], BOLD if big else FONT, sz)
+            ci = 0
+            for (kind, b), xx in zip(self.cols, xr):
+                if kind == "value":
+                    if ci < len(cells):
+                        text(xx - 1, y, cells[ci], BOLD if big else FONT, sz, "right")
+                    ci += 1
+                elif pct.get(b):
+                    text(xx - 1, y, pct[b], BOLD, size, "right")
+            if big and lay.percent_header == "energy_line" and not pct_heading_done:
+                text(W - pad, y - size * 1.1, d.pack.panel.percent_label or "", BOLD, size * 0.85, "right")
+                if lay.percent_label_second:
+                    text(W - pad, y, lay.percent_label_second, BOLD, size * 0.85, "right")
+                pct_heading_done = True
+            last = i == len(rows) - 1 or all(x[0].percent_only for x in rows[i + 1 :])
+            nxt = size * (1.0 if not last else 0.8)
+            if last and lay.rule_before_footnotes_pt:
+                rule(lay.rule_before_footnotes_pt, nxt, below=sz)
+            elif r.nutrient in lay.heavy_rule_after or big:
+                x_end = after_x + 1.5 * mm if (big and lay.energy_rule_partial) else None
+                rule(lay.heavy_rule_pt, nxt, x_end, below=sz)
+            elif r.nutrient in lay.no_rule_after and not last:
+                y += lh
+            else:
+                rule(0.35, nxt, below=sz)
             if big:
                 first_energy = False
-            rule(y, 2.5 if heavy else 0.35)
-        foot = [fn.text for fn in d.pack.panel.footnotes if fn.when == "always" or npct]
-        for ftxt in foot:
-            for part in wrap_lines(ftxt, FONT, size * 0.8, W - 2 * pad):
-                y += size * 0.8 * 1.3
-                text(pad, y, part, FONT, size * 0.8)
-        y += pad
-        return ops, y
+                if lay.percent_header == "below_energy" and not d.dual_column and any(k == "pct" for k, _ in self.cols):
+                    text(W - pad, y, d.pack.panel.percent_label or "%", BOLD, size * 0.95, "right")
+                    rule(0.35, size, below=size)
+                    pct_heading_done = True
+        shown_pct = any(k == "pct" for k, _ in self.cols)
+        for fn in d.pack.panel.footnotes:
+            if not (fn.when == "always" or shown_pct):
+                continue
+            for t in [fn.text] + ([fn.text_second] if fn.text_second else []):
+                for part in wrap_lines(t, FONT, size * 0.8, W - 2 * pad):
+                    text(pad, y, part, FONT, size * 0.8)
+                    y += size * 0.8 * 1.25
+        y += pad - size * 0.8 * 0.5
+        return ops, y, W
 
-    def _paint(self, c, ops, H) -> None:
+    def _paint(self, c, ops, H, W) -> None:
         lay = self.lay
-        W = self.width_pt
-        pad = 2.2 * mm if lay.style == "boxed" else 1.2 * mm
+        pad = self._pad()
         if c is not None:
             c.saveState()
             c.setFillColor(INK)
             c.setStrokeColor(INK)
+            c.setLineCap(0)
             if lay.style == "boxed":
                 c.setLineWidth(0.8)
                 c.rect(0, 0, W, H)
@@ -256,9 +391,9 @@ class PanelDrawing(Flowable):
                     else:
                         c.drawString(x, H - yy, s)
                 else:
-                    _, yy, weight = op
+                    _, yy, weight, x_end = op
                     c.setLineWidth(weight)
-                    c.line(pad * 0.5, H - yy, W - pad * 0.5, H - yy)
+                    c.line(pad * 0.5, H - yy, x_end if x_end is not None else W - pad * 0.5, H - yy)
             c.restoreState()
 
 
@@ -312,7 +447,65 @@ def ingredient_paragraph(a: Assessment, st) -> Paragraph | None:
     return Paragraph(f"<b>{_esc(il['heading'])}</b> " + render(il["items"]) + ".", st["base"])
 
 
-def build_story(a: Assessment, checks: list[Check], date: str, st, *, calculation: bool = True) -> list:
+def second_language_list(a: Assessment) -> tuple[str, list[str]] | None:
+    """The ingredient list in the market's second official language (Canada: FDR B.01.012(2)), from the
+    'label_names' of the library entries and sub-formulas; names it cannot find are shown in brackets
+    and returned, so the draft says what to translate."""
+    rule = a.declaration.pack.ingredient_list
+    il = a.ingredient_list
+    if not il or rule is None or not rule.heading_second or not rule.second_language:
+        return None
+    lang = rule.second_language
+    f = a.declaration.composition.formula
+    names: dict[str, str] = {i.id: i.label_names.get(lang, "") for i in f.ingredients_used()}
+    todo = [f]
+    while todo:
+        g = todo.pop()
+        names[g.id] = (g.header.label_names or {}).get(lang, "")
+        todo += g.sub_formulas()
+    emph = a.allergens.get("emphasis", "bold")
+    missing: list[str] = []
+
+    def render(items) -> str:
+        parts = []
+        for it in items:
+            name = names.get(it.get("id", ""), "")
+            if not name:
+                missing.append(it["name"])
+                name = f"[{it['name']}]"
+            allergens = [second_allergen.get(n, n) for n in it.get("allergen_names", [])]
+            shown = allergen_name(
+                {**it, "name": _esc(name), "allergen_names": allergens}, emph, bold=lambda x: f"<b>{x}</b>"
+            )
+            if it.get("quid"):
+                shown += f" ({_esc(it['quid'])})"
+            if it["components"]:
+                shown += " (" + render(it["components"]) + ")"
+            parts.append(shown)
+        return ", ".join(parts)
+
+    entries = a.declaration.pack.allergens.entries.values() if a.declaration.pack.allergens else []
+    second_allergen = {e.name: (e.name_second or e.name).lower() for e in entries}
+    body = render(il["items"])
+    return f"<b>{_esc(rule.heading_second)}</b> {body}.", list(dict.fromkeys(missing))
+
+
+def allergen_statement(a: Assessment) -> str:
+    """The allergen summary as printed, in both official languages where the pack names them in two."""
+    al = a.allergens
+    rules = a.declaration.pack.allergens
+    text = al["statement"]
+    if rules is None or not rules.summary_prefix_second:
+        return text
+    by_name = {e.name: e for e in rules.entries.values()}
+    second = [by_name[n].name_second or n if n in by_name else n for n in al["declared"]]
+    lower = [x if x.startswith("[") else x[:1].lower() + x[1:] for x in second]
+    return f"{text} / {rules.summary_prefix_second} {', '.join(lower)}."
+
+
+def build_story(
+    a: Assessment, checks: list[Check], date: str, st, *, calculation: bool = True, print_note: str | None = None
+) -> list:
     d = a.declaration
     f = d.composition.formula
     story: list = []
@@ -338,29 +531,48 @@ def build_story(a: Assessment, checks: list[Check], date: str, st, *, calculatio
                 st["warn"],
             )
         )
+    if print_note:
+        story.append(Paragraph(_esc(print_note), st["warn"]))
     story.append(Spacer(1, 4 * mm))
     story.append(PanelDrawing(d))
+    if d.pack.panel.layout.serving_note and d.serving_g and not PanelDrawing(d).serving_lines()[2]:
+        story.append(Paragraph(_esc("SERVING REVIEW: " + d.pack.panel.layout.serving_note), st["warn"]))
     story.append(Spacer(1, 4 * mm))
     ip = ingredient_paragraph(a, st)
     if ip:
         story.append(ip)
+    second = second_language_list(a)
+    if ip and second:
+        text, missing = second
+        story.append(Paragraph(text, st["base"]))
+        if missing:
+            story.append(
+                Paragraph(
+                    _esc(
+                        "TRANSLATION NEEDED: no name in the second official language for "
+                        + ", ".join(missing)
+                        + " — add 'label_names' to the library entry or sub-formula, or translate by hand"
+                    ),
+                    st["warn"],
+                )
+            )
     al = a.allergens
     if al.get("statement"):
-        story.append(Paragraph(f"<b>{_esc(al['statement'])}</b>", st["base"]))
+        story.append(Paragraph(f"<b>{_esc(allergen_statement(a))}</b>", st["base"]))
     for x in al.get("review", []):
         story.append(Paragraph(_esc("ALLERGEN REVIEW: " + x), st["warn"]))
     if a.statements:
-        story.append(Paragraph("Required statements", st["h2"]))
+        story.append(Paragraph("Statements", st["h2"]))
         for s in a.statements:
             story.append(Paragraph(f"<b>{_esc(s.text)}</b>", st["base"]))
-            story.append(Paragraph(_esc(f"{s.status}: {s.trigger} [{s.citation}]"), st["small"]))
+            story.append(Paragraph(_esc(f"{s.status.upper()}: {s.trigger} [{s.citation}]"), st["small"]))
             for x in s.figures:
                 story.append(Paragraph(_esc("· " + x), st["small"]))
             if s.caution:
                 story.append(Paragraph(_esc("Caution: " + s.caution), st["small"]))
     for fop in a.front_of_pack:
         story.append(Paragraph(_esc(f"Front of pack (draft) — {fop['name']}"), st["h2"]))
-        story.append(_fop_table(fop, st))
+        story.append(_fop_table(fop, st, {r.nutrient: plain_label(r.label) for r in d.pack.rows}))
     elig = [c for c in a.claims if c.verdict == ELIGIBLE]
     story.append(Paragraph("Claims eligible — for review, not part of the panel", st["h2"]))
     if elig:
@@ -404,11 +616,12 @@ def build_story(a: Assessment, checks: list[Check], date: str, st, *, calculatio
     return story
 
 
-def _fop_table(fop: dict, st):
+def _fop_table(fop: dict, st, names: dict[str, str] | None = None):
     rows = [["nutrient", "verdict", "figures"]]
     if fop.get("exempt"):
         rows.append(["all", "exempt", ""])
-    for n, v in fop.get("verdicts", {}).items():
+    for key, v in fop.get("verdicts", {}).items():
+        n = (names or {}).get(key, key.replace("_", " "))
         if "colour" in v:
             fig = f"{v['per_100g']:.2f} {v.get('unit', '')} per 100 g" if v.get("per_100g") is not None else "unknown"
             rows.append([n, v["colour"], fig + (f"; {v['why']}" if v.get("why") else "")])
@@ -446,6 +659,10 @@ def _table(rows, st, widths):
     return t
 
 
+def _with_unit(value: str, unit: str) -> str:
+    return value if value == "unknown" else f"{value} {display_unit(unit)}"
+
+
 def calculation_story(a: Assessment, st) -> list:
     d = a.declaration
     story = [
@@ -464,7 +681,15 @@ def calculation_story(a: Assessment, st) -> list:
     rows = calculation_rows(a)
     head = [["row", "column", "unrounded", "rounding (band)", "declared", "reference / %", "source"]]
     body = [
-        [r["label"], r["column"], r["unrounded"], r["rounding"], r["declared"], r["percent"], r["source"]]
+        [
+            r["label"],
+            r["column"],
+            _with_unit(r["unrounded"], r["unit"]),
+            r["rounding"],
+            r["declared"],
+            r["percent"],
+            r["source"],
+        ]
         for r in rows
         if r["kind"] == "figure"
     ]
@@ -512,6 +737,31 @@ def calculation_story(a: Assessment, st) -> list:
     return story
 
 
+def end_to_print(items: list[tuple[Assessment, list[Check]]]) -> tuple[int, str | None]:
+    """Which scenario's panel to print when an input is a range, and why.
+
+    The end with the higher declared energy is printed: the markets' compliance rules cap declared
+    energy, fat, sugars and sodium from above (21 CFR 101.9(g)(5): no more than 120 % of the declared
+    value; the EU tolerance guidance's upper bounds), so the higher end is the conservative draft.
+    The other end stays in the calculation sheet.
+    """
+    if len(items) == 1:
+        return 0, None
+
+    def energy(i: int) -> float:
+        e = items[i][0].declaration.declared_energy
+        return e.kj if e.kj is not None else float("-inf")
+
+    best = max(range(len(items)), key=energy)
+    scen = items[best][0].declaration.composition.scenario
+    others = ", ".join(a.declaration.composition.scenario for j, (a, _) in enumerate(items) if j != best)
+    return best, (
+        f"PRINT THIS PANEL: the {scen} end of the stated ranges, the one with the higher declared energy — the "
+        "conservative choice, since compliance rules cap declared energy and fat from above (e.g. 21 CFR "
+        f"101.9(g)(5)). The {others} end follows on later pages and in the calculation sheet, not for printing."
+    )
+
+
 def write_panel_pdf(
     items: list[tuple[Assessment, list[Check]]], path: Path, date: str, *, calculation: bool = True
 ) -> Path:
@@ -536,11 +786,19 @@ def write_panel_pdf(
         invariant=1,
     )
     try:
-        story: list = []
-        for i, (ai, checks) in enumerate(items):
-            if i:
+        chosen, why = end_to_print(items)
+        ai, checks = items[chosen]
+        story: list = build_story(ai, checks, date, st, calculation=calculation, print_note=why)
+        for i, (other, _) in enumerate(items):
+            if i == chosen:
+                continue
+            scen = other.declaration.composition.scenario
+            story.append(PageBreak())
+            story.append(Paragraph(_esc(f"Other end of the stated ranges ({scen}) — not for printing"), st["h1"]))
+            story.append(PanelDrawing(other.declaration))
+            if calculation:
                 story.append(PageBreak())
-            story += build_story(ai, checks, date, st, calculation=calculation)
+                story += calculation_story(other, st)
         doc.build(story, onFirstPage=_footer(date, label), onLaterPages=_footer(date, label))
         os.replace(tmp, path)
     finally:

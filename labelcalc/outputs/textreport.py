@@ -234,7 +234,7 @@ def assess_text(items) -> str:
                 for x in c.texts:
                     out.append(f"      required text: {x}")
         if a.statements:
-            out.append("Required statements:")
+            out.append("Statements (required, conditional or for review):")
             for s in a.statements:
                 out.append(f"  [{s.status.upper()}] {s.text}")
                 out.append(f"      because: {s.trigger} — {s.citation} ({s.confidence})")

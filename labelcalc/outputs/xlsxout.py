@@ -1,113 +1,209 @@
-"""A small streaming writer for .xlsx workbooks (Office Open XML, ECMA-376).
+"""The range summary workbook (openpyxl, write-only mode).
 
-Range summaries have tens of thousands of rows; building them cell by cell in a general
-spreadsheet library takes longer than the labelling itself.  This writer streams each sheet
-as XML into the zip container, with inline strings and plain numbers, which is all a summary
-table needs.  Reading workbooks is left to openpyxl.
+One sheet per market, because each market declares different nutrients on a different basis under
+its own names: the columns of a sheet are that market's rows, in the pack's order, named as the
+pack prints them, with the basis and the unit in the header ("Total Fat per serving [g]").  Cells
+are numbers; where the printed text is not simply "number unit" ("less than 1 g", "Includes 3g
+Added Sugars") a "... as printed" text column sits beside the number.  Header row frozen, column
+widths set.  Then the errors and, when the register was used, the changes.
+
+Identical input gives a byte-identical file: fixed document dates, and the zip entries rewritten
+with a fixed timestamp (openpyxl stamps them with the current time).
 """
 
 from __future__ import annotations
 
+import datetime as _dt
+import re
 import zipfile
 from pathlib import Path
-from xml.sax.saxutils import escape
 
-_CT = (
-    '<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
-    '<Types xmlns="http://schemas.openxmlformats.org/package/2006/content-types">'
-    '<Default Extension="rels" ContentType="application/vnd.openxmlformats-package.relationships+xml"/>'
-    '<Default Extension="xml" ContentType="application/xml"/>'
-    '<Override PartName="/xl/workbook.xml" '
-    'ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet.main+xml"/>'
-    "{sheets}</Types>"
-)
-_SHEET_CT = (
-    '<Override PartName="/xl/worksheets/sheet{i}.xml" '
-    'ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.worksheet+xml"/>'
-)
-_RELS = (
-    '<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
-    '<Relationships xmlns="http://schemas.openxmlformats.org/package/2006/relationships">'
-    '<Relationship Id="rId1" Type="http://schemas.openxmlformats.org/officeDocument/2006/relationships/officeDocument" '
-    'Target="xl/workbook.xml"/></Relationships>'
-)
-_WB = (
-    '<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
-    '<workbook xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main" '
-    'xmlns:r="http://schemas.openxmlformats.org/officeDocument/2006/relationships"><sheets>{sheets}</sheets></workbook>'
-)
-_WB_SHEET = '<sheet name="{name}" sheetId="{i}" r:id="rId{i}"/>'
-_WB_RELS = (
-    '<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
-    '<Relationships xmlns="http://schemas.openxmlformats.org/package/2006/relationships">{rels}</Relationships>'
-)
-_WB_REL = (
-    '<Relationship Id="rId{i}" Type="http://schemas.openxmlformats.org/officeDocument/2006/relationships/worksheet" '
-    'Target="worksheets/sheet{i}.xml"/>'
-)
+from openpyxl import Workbook
+from openpyxl.cell import WriteOnlyCell
+from openpyxl.styles import Alignment, Font
 
+from labelcalc.labelling.model import BASIS_LABEL, display_unit
+from labelcalc.labelling.rounding import plain_label
+from labelcalc.labelling.rulepack import RulePack
 
-def _col(n: int) -> str:
-    s = ""
-    n += 1
-    while n:
-        n, r = divmod(n - 1, 26)
-        s = chr(65 + r) + s
-    return s
+FIXED_TIME = _dt.datetime(2000, 1, 1, 0, 0, 0)
+_NUMBER_UNIT = re.compile(r"^(-?\d+(?:\.\d+)?)\s*([A-Za-zµ]+)?$")
+_PERCENT = re.compile(r"^(-?\d+(?:\.\d+)?)\s*%$")
+
+# fixed columns of every market sheet: (summary key, header, width, decimals)
+_LEAD = [
+    ("product_id", "Product id", 24, None),
+    ("product_name", "Product name", 30, None),
+    ("scenario", "Scenario", 10, None),
+    ("serving_g", "Serving [g]", 10, 1),
+    ("declared_energy_kj_per_100g", "Declared energy per 100 g [kJ]", 14, 1),
+    ("declared_energy_kcal_per_100g", "Declared energy per 100 g [kcal]", 14, 1),
+    ("declared_energy_kcal_per_serving", "Declared energy per serving [kcal]", 14, 1),
+    ("available_energy_kcal_per_100g", "Available energy per 100 g [kcal]", 14, 1),
+    ("available_energy_kcal_per_serving", "Available energy per serving [kcal]", 14, 1),
+]
+_TAIL = [
+    ("claims_eligible", "Claims eligible", 40),
+    ("statements_required", "Statements", 40),
+    ("allergens", "Allergens declared", 28),
+    ("allergens_unknown", "Ingredients with unknown allergens", 28),
+    ("front_of_pack", "Front of pack", 40),
+    ("reviews", "Notes for review [count]", 12),
+    ("formula_hash", "Formula hash", 18),
+    ("file", "File", 36),
+]
 
 
-def _cell(ref: str, v) -> str:
-    if v is None or v == "":
-        return ""
-    if isinstance(v, bool):
-        return f'<c r="{ref}" t="b"><v>{int(v)}</v></c>'
-    if isinstance(v, (int, float)):
-        if v != v:  # NaN
-            return ""
-        return f'<c r="{ref}"><v>{v!r}</v></c>'
-    return f'<c r="{ref}" t="inlineStr"><is><t xml:space="preserve">{escape(str(v))}</t></is></c>'
+def _number(text):
+    """(number, is plain) of a printed amount: '8.3 g' -> (8.3, True); 'less than 1 g' -> (None, False)."""
+    if text is None or text == "":
+        return None, True
+    if isinstance(text, (int, float)):
+        return text, True
+    m = _NUMBER_UNIT.match(str(text).strip()) or _PERCENT.match(str(text).strip())
+    if m:
+        return float(m.group(1)), True
+    return None, False
 
 
-def write_workbook(path: Path, sheets: dict[str, list[dict]]) -> None:
-    """Write sheets (name -> rows as dicts; columns in first-seen order) to an .xlsx file."""
-    with zipfile.ZipFile(path, "w", compression=zipfile.ZIP_DEFLATED, compresslevel=1) as z:
-        names = list(sheets)
-        z.writestr(
-            "[Content_Types].xml", _CT.format(sheets="".join(_SHEET_CT.format(i=i + 1) for i in range(len(names))))
-        )
-        z.writestr("_rels/.rels", _RELS)
-        z.writestr(
-            "xl/workbook.xml",
-            _WB.format(sheets="".join(_WB_SHEET.format(name=escape(n[:31]), i=i + 1) for i, n in enumerate(names))),
-        )
-        z.writestr(
-            "xl/_rels/workbook.xml.rels",
-            _WB_RELS.format(rels="".join(_WB_REL.format(i=i + 1) for i in range(len(names)))),
-        )
-        for i, name in enumerate(names):
-            rows = sheets[name]
-            cols: list[str] = []
-            seen: set[str] = set()
-            for r in rows:
-                for k in r:
-                    if k not in seen:
-                        seen.add(k)
-                        cols.append(k)
-            cols = cols or ["(none)"]
-            letters = [_col(j) for j in range(len(cols))]
-            with z.open(f"xl/worksheets/sheet{i + 1}.xml", "w") as fh:
-                fh.write(
-                    b'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
-                    b'<worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main"><sheetData>'
-                )
-                head = "".join(_cell(f"{letters[j]}1", c) for j, c in enumerate(cols))
-                fh.write(f'<row r="1">{head}</row>'.encode())
-                buf = []
-                for n, r in enumerate(rows, start=2):
-                    cells = "".join(_cell(f"{letters[j]}{n}", r.get(c)) for j, c in enumerate(cols))
-                    buf.append(f'<row r="{n}">{cells}</row>')
-                    if len(buf) >= 2000:
-                        fh.write("".join(buf).encode())
-                        buf = []
-                fh.write("".join(buf).encode())
-                fh.write(b"</sheetData></worksheet>")
+def _amount_of(text, template: str | None):
+    """The amount part of a row printed with its amount inside the label ('Includes 3g Added Sugars' -> '3g')."""
+    if template is None or not isinstance(text, str):
+        return text
+    head, _, tail = template.partition("{amount}")
+    if text.startswith(head) and text.endswith(tail):
+        return text[len(head) : len(text) - len(tail)].strip()
+    return text
+
+
+def _names(key: str, value, names: dict[str, str]):
+    """Claim and statement ids as the pack names them ('; '-separated lists); other values unchanged."""
+    if key not in ("claims_eligible", "statements_required") or not value:
+        return value if value not in ("", None) else None
+    return "; ".join(names.get(x.strip(), x.strip()) for x in str(value).split(";"))
+
+
+def _round(v, decimals):
+    return round(v, decimals) if isinstance(v, float) and decimals is not None else v
+
+
+def market_columns(rows: list[dict], pack: RulePack | None) -> list[tuple[str, str, str, int]]:
+    """(summary key, header, kind, width) of a market sheet's nutrient columns; kind is 'number',
+    'printed' or 'percent'.  Names come from the pack where it is known, else from the keys."""
+    keys = {k for r in rows for k in r}
+    order = [r.nutrient for r in pack.rows] if pack else sorted(k for k in keys if not k.endswith("_percent"))
+    basis = rows[0].get("column", "per_serving") if rows else "per_serving"
+    basis_text = BASIS_LABEL.get(basis, basis.replace("_", " "))
+    cols: list[tuple[str, str, str, int]] = []
+    for key in order:
+        if key not in keys:
+            continue
+        prow = next((r for r in pack.rows if r.nutrient == key), None) if pack else None
+        if prow and "{amount}" in prow.label:  # 'Includes {amount} Added Sugars' -> 'Added Sugars'
+            name = prow.label.split("{amount}")[-1].strip() or plain_label(prow.label)
+        else:
+            name = (plain_label(prow.label).lstrip("+ ") or prow.label) if prow else key.replace("_", " ")
+        unit = display_unit(pack.nutrients[key].unit) if pack and key in pack.nutrients else ""
+        if pack and key in pack.nutrients and pack.panel.unit_labels.get(pack.nutrients[key].unit):
+            unit = pack.panel.unit_labels[pack.nutrients[key].unit]
+        values = [r.get(key) for r in rows]
+        if prow is None or not prow.percent_only:
+            cols.append((key, f"{name} {basis_text} [{unit}]" if unit else f"{name} {basis_text}", "number", 14))
+            if any(not _number(v)[1] for v in values):
+                cols.append((key, f"{name} as printed", "printed", 20))
+        if f"{key}_percent" in keys:
+            plabel = (pack.panel.percent_label or "%").rstrip("*") if pack else "%"
+            cols.append((f"{key}_percent", f"{name} {plabel.strip()} [%]", "percent", 12))
+    return cols
+
+
+def _header(ws, headers: list[str]) -> None:
+    bold = Font(bold=True)
+    cells = []
+    for h in headers:
+        c = WriteOnlyCell(ws, value=h)
+        c.font = bold
+        c.alignment = Alignment(wrap_text=True, vertical="top")
+        cells.append(c)
+    ws.append(cells)
+
+
+def _market_sheet(wb: Workbook, market: str, rows: list[dict], pack: RulePack | None) -> None:
+    ws = wb.create_sheet(market.upper() if len(market) <= 5 else market[:31])
+    cols = market_columns(rows, pack)
+    widths = [w for _, _, w, _ in _LEAD] + [w for *_, w in cols] + [w for *_, w in _TAIL]
+    for j, w in enumerate(widths):
+        ws.column_dimensions[_letter(j)].width = w
+    ws.freeze_panes = "C2"
+    _header(ws, [h for _, h, _, _ in _LEAD] + [h for _, h, _, _ in cols] + [h for _, h, _ in _TAIL])
+    templates = {r.nutrient: r.label for r in pack.rows if "{amount}" in r.label} if pack else {}
+    names: dict[str, str] = {}
+    if pack:
+        names.update({c.id: c.label for c in pack.claims})
+        names.update({s.id: s.text for s in pack.statements})
+    for r in rows:
+        line = [_round(r.get(k), d) for k, _, _, d in _LEAD]
+        for key, _, kind, _ in cols:
+            v = _amount_of(r.get(key), templates.get(key))
+            if kind == "printed":
+                line.append(None if _number(v)[1] else v)
+            else:
+                line.append(_number(v)[0])
+        line += [_names(k, r.get(k), names) for k, _, _ in _TAIL]
+        ws.append(line)
+
+
+def _letter(j: int) -> str:
+    from openpyxl.utils import get_column_letter
+
+    return get_column_letter(j + 1)
+
+
+def _plain_sheet(wb: Workbook, name: str, rows: list[dict], columns: list[str] | None = None) -> None:
+    ws = wb.create_sheet(name)
+    cols = columns or list(dict.fromkeys(k for r in rows for k in r)) or ["(none)"]
+    for j, c in enumerate(cols):
+        ws.column_dimensions[_letter(j)].width = 50 if c in ("message", "why", "what_moved") else 18
+    ws.freeze_panes = "A2"
+    _header(ws, [c.replace("_", " ").capitalize() for c in cols])
+    for r in rows:
+        ws.append([r.get(c) for c in cols])
+
+
+def write_summary_workbook(
+    path: Path,
+    rows: list[dict],
+    errors: list[dict],
+    changes: list[dict] | None,
+    packs: dict[str, RulePack] | None = None,
+    error_columns: list[str] | None = None,
+) -> None:
+    """Write the range summary workbook to ``path`` (one sheet per market, then errors and changes)."""
+    wb = Workbook(write_only=True)
+    wb.properties.creator = "labelcalc"
+    wb.properties.created = FIXED_TIME
+    wb.properties.modified = FIXED_TIME
+    by_market: dict[str, list[dict]] = {}
+    for r in rows:
+        by_market.setdefault(r["market"], []).append(r)
+    for market in sorted(by_market):
+        _market_sheet(wb, market, by_market[market], (packs or {}).get(market))
+    _plain_sheet(wb, "errors", errors, error_columns)
+    if changes is not None:
+        _plain_sheet(wb, "changes", changes, ["status", "product_id", "market", "scenario", "what_moved", "why"])
+    wb.save(path)
+    _fix_zip_dates(path)
+
+
+def _fix_zip_dates(path: Path) -> None:
+    """Rewrite the zip with a fixed timestamp on every entry and in the document properties, so identical
+    input gives identical bytes."""
+    with zipfile.ZipFile(path) as z:
+        entries = [(i.filename, z.read(i.filename)) for i in z.infolist()]
+    with zipfile.ZipFile(path, "w", compression=zipfile.ZIP_DEFLATED) as z:
+        for name, data in entries:
+            if name == "docProps/core.xml":  # openpyxl stamps 'modified' with the time of saving
+                data = re.sub(rb"(<dcterms:modified[^>]*>)[^<]*", rb"\g<1>2000-01-01T00:00:00Z", data)
+            info = zipfile.ZipInfo(name, date_time=(2000, 1, 1, 0, 0, 0))
+            info.compress_type = zipfile.ZIP_DEFLATED
+            z.writestr(info, data)

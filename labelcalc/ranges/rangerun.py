@@ -276,12 +276,6 @@ def write_csv(path: Path, rows: list[dict], columns: list[str] | None = None) ->
     atomic_write(path, w)
 
 
-def write_xlsx(path: Path, sheets: dict[str, list[dict]]) -> None:
-    from labelcalc.outputs.xlsxout import write_workbook
-
-    atomic_write(path, lambda tmp: write_workbook(tmp, sheets))
-
-
 def write_json(path: Path, doc) -> None:
     def w(tmp: Path):
         with tmp.open("w", encoding="utf-8") as fh:  # streamed: a large range never sits in memory as one string
@@ -294,14 +288,19 @@ def write_json(path: Path, doc) -> None:
 ERROR_COLUMNS = ["product_id", "market", "file", "line", "field", "message"]
 
 
-def write_outputs(out: Path, result: RangeResult, changes: list[dict] | None = None) -> list[Path]:
+def write_outputs(
+    out: Path, result: RangeResult, changes: list[dict] | None = None, packs: dict | None = None
+) -> list[Path]:
+    """Write the summary tables; ``packs`` (market -> pack) names the workbook's columns as each pack prints them."""
+    from labelcalc.outputs.xlsxout import write_summary_workbook
+
     out.mkdir(parents=True, exist_ok=True)
     files = [out / "summary.csv", out / "summary.xlsx", out / "summary.json", out / "errors.csv"]
     write_csv(files[0], result.rows)
-    sheets = {"summary": result.rows, "errors": result.errors}
-    if changes is not None:
-        sheets["changes"] = changes
-    write_xlsx(files[1], sheets)
+    atomic_write(
+        files[1],
+        lambda tmp: write_summary_workbook(tmp, result.rows, result.errors, changes, packs, ERROR_COLUMNS),
+    )
     write_json(
         files[2],
         {

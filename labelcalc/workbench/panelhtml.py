@@ -102,8 +102,9 @@ def panel_view(d: Declaration) -> PanelView:
         headers += [pack.panel.percent_label or "%"] * len(pct_cols)
     servings_line = serving_line = None
     if lay.serving_lines_on_top or lay.style == "boxed":
-        if d.servings_text:
-            servings_line = lay.servings_text.format(n=d.servings_text)
+        wording = lay.servings_text_one if (d.servings_text == "1" and lay.servings_text_one) else lay.servings_text
+        if d.servings_text and wording:  # no servings line where the pack has none (Canada)
+            servings_line = wording.format(n=d.servings_text)
         if d.serving_g:
             s = d.composition.formula.header.serving
             hh = s.household if s else None
