@@ -77,7 +77,7 @@ def calculation_rows(a: Assessment) -> list[dict]:
             )
     for r in trace["rows"]:
         for ln in r["lines"]:
-            if ln["amount"] == 0:
+            if ln["amount"] == 0 and ln["kind"] == "ingredient":  # processing steps stay: they explain the figure
                 continue
             out.append(
                 {

@@ -669,51 +669,52 @@ def calculation_story(a: Assessment, st) -> list:
         Paragraph(_esc(f"Calculation sheet — {d.composition.formula.header.name} — {d.pack.pack.name}"), st["h1"]),
         Paragraph(
             _esc(
-                "Every declared figure: unrounded value, the rounding step and rule applied, the reference value "
-                "and percentage, and what each leaf ingredient and processing step (water lost, oil taken up) "
-                "contributes, through every sub-formula, with the source of each ingredient value. "
-                "Unknown inputs are listed."
+                "Each declared figure in turn: its unrounded value in every printed column, the rounding band "
+                "applied, the reference value and percentage; then what each leaf ingredient and each processing "
+                "step (water lost, oil taken up) contributes per 100 g of finished product, through every "
+                "sub-formula, with the source of each ingredient value; then the rule's citations. Energy factors, "
+                "unknown inputs and assumed zeros follow."
             ),
             st["small"],
         ),
         Spacer(1, 3 * mm),
     ]
     rows = calculation_rows(a)
-    head = [["row", "column", "unrounded", "rounding (band)", "declared", "reference / %", "source"]]
-    body = [
-        [
-            r["label"],
-            r["column"],
-            _with_unit(r["unrounded"], r["unit"]),
-            r["rounding"],
-            r["declared"],
-            r["percent"],
-            r["source"],
-        ]
-        for r in rows
-        if r["kind"] == "figure"
-    ]
-    story.append(_table(head + body, st, [26 * mm, 17 * mm, 17 * mm, 30 * mm, 17 * mm, 22 * mm, 51 * mm]))
+    figures = [r for r in rows if r["kind"] == "figure"]
     lines = [r for r in rows if r["kind"] == "line"]
-    for label in dict.fromkeys(r["label"] for r in lines):
-        mine = [r for r in lines if r["label"] == label]
-        story.append(
-            Paragraph(
-                _esc(f"{label}: where it comes from, per 100 g of finished product ({mine[0]['unit']})"), st["h2"]
-            )
-        )
-        table = [["ingredient or step", "through", "g used", "amount", "value source"]]
-        table += [
-            [
-                r["ingredient"] if r["line_kind"] == "ingredient" else f"{r['line_kind']}: {r['ingredient']}",
-                r["route"] or "the formula",
-                r["grams_per_100g"],
-                r["amount"],
-                r["source"],
-            ]
+    for nutrient in dict.fromkeys(r["nutrient"] for r in figures):
+        mine = [r for r in figures if r["nutrient"] == nutrient]
+        story.append(Paragraph(_esc(f"{mine[0]['label']} [{mine[0]['unit']}]"), st["h2"]))
+        head = [["column", "unrounded", "rounding band applied", "declared", "reference value and %"]]
+        body = [
+            [r["column"], _with_unit(r["unrounded"], r["unit"]), r["rounding"], r["declared"], r["percent"]]
             for r in mine
         ]
-        story.append(_table(table, st, [38 * mm, 42 * mm, 15 * mm, 15 * mm, 70 * mm]))
+        story.append(_table(head + body, st, [22 * mm, 24 * mm, 64 * mm, 24 * mm, 46 * mm]))
+        contrib = [r for r in lines if r["nutrient"] == nutrient]
+        if contrib:
+            table = [
+                [
+                    "ingredient or processing step",
+                    "through",
+                    "g per 100 g",
+                    f"{mine[0]['unit']} per 100 g",
+                    "value source",
+                ]
+            ]
+            table += [
+                [
+                    r["ingredient"] if r["line_kind"] == "ingredient" else f"{r['line_kind']}: {r['ingredient']}",
+                    r["route"] or "the formula",
+                    r["grams_per_100g"],
+                    r["amount"],
+                    r["source"],
+                ]
+                for r in contrib
+            ]
+            story.append(Spacer(1, 1 * mm))
+            story.append(_table(table, st, [40 * mm, 44 * mm, 18 * mm, 18 * mm, 60 * mm]))
+        story.append(Paragraph(_esc("Sources: " + mine[0]["source"]), st["small"]))
     e = d.declared_energy
     story.append(Paragraph("Energy factors used", st["h2"]))
     erows = [["component", "kJ/g", "kcal/g", "source"]]
