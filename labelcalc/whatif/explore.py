@@ -18,8 +18,9 @@ from labelcalc.formulation.composition import compose
 from labelcalc.intake.formula import Formula, Header, Line, map_tree
 from labelcalc.intake.library import Library
 from labelcalc.intake.quantities import Quantity
-from labelcalc.labelling.assess import assess_against
+from labelcalc.labelling.engine import LabelEngine, require_labelled
 from labelcalc.labelling.model import ELIGIBLE
+from labelcalc.labelling.record import label_record
 from labelcalc.labelling.rulepack import RulePack
 from labelcalc.whatif.costing import cost_of
 
@@ -133,40 +134,53 @@ def figures(
     f: Formula, library: Library, packs: list[RulePack], label: str, prices=None, reference=None
 ) -> list[Point]:
     """Points for every market and scenario of a formula."""
-    comps = compose(f, library)
-    out = []
+    return figures_many([(label, f)], library, packs, prices, reference)[0]
+
+
+def figures_many(
+    formulas: list[tuple[str, Formula]], library: Library, packs: list[RulePack], prices=None, reference=None
+) -> list[list[Point]]:
+    """Points for every market and scenario of each formula, labelled together: one engine per market for
+    all formulas and scenarios (a sweep of 21 levels is one table operation per market, not 21)."""
+    comps = [compose(f, library) for _, f in formulas]
+    flat = [(k, i, c) for k, cs in enumerate(comps) for i, c in enumerate(cs)]
+    refs = [reference[min(i, len(reference) - 1)] if reference else None for _, i, _ in flat]
+    out: list[list[Point]] = [[] for _ in formulas]
     for p in packs:
-        for i, c in enumerate(comps):
-            a = assess_against(c, p, reference, i)
-            d = a.declaration
-            s = d.serving_g
-            cost = cost_of(c, prices)
-            av, de = d.available_energy.kcal, d.declared_energy.kcal
-            main = d.columns[0]
-            out.append(
-                Point(
-                    label,
-                    c.scenario,
-                    p.market,
-                    None if av is None or s is None else av * s / 100,
-                    av,
-                    None if de is None or s is None else de * s / 100,
-                    de,
-                    {r.nutrient: (r.label_for(main) if r.amount_in_label else r.text(main)) for r in d.shown_rows},
-                    [x.claim for x in a.claims if x.verdict == ELIGIBLE],
-                    [x.statement for x in a.statements],
-                    {
-                        f"{fo['scheme']}:{k}": str(v.get("colour", v.get("high_in")))
-                        for fo in a.front_of_pack
-                        for k, v in fo.get("verdicts", {}).items()
-                    },
-                    cost.per_kg,
-                    cost.per_serving,
-                    cost.currency,
-                    {"missing_prices": cost.missing_prices, "claim_verdicts": a.claims},
-                )
-            )
+        eng = LabelEngine(p, [c for _, _, c in flat], refs)
+        require_labelled(eng)
+        for j, (k, _, c) in enumerate(flat):
+            out[k].append(_point(formulas[k][0], c, label_record(eng, j).assessment, prices))
     return out
+
+
+def _point(label: str, c, a, prices) -> Point:
+    d = a.declaration
+    s = d.serving_g
+    cost = cost_of(c, prices)
+    av, de = d.available_energy.kcal, d.declared_energy.kcal
+    main = d.columns[0]
+    return Point(
+        label,
+        c.scenario,
+        d.market,
+        None if av is None or s is None else av * s / 100,
+        av,
+        None if de is None or s is None else de * s / 100,
+        de,
+        {r.nutrient: (r.label_for(main) if r.amount_in_label else r.text(main)) for r in d.shown_rows},
+        [x.claim for x in a.claims if x.verdict == ELIGIBLE],
+        [x.statement for x in a.statements],
+        {
+            f"{fo['scheme']}:{k}": str(v.get("colour", v.get("high_in")))
+            for fo in a.front_of_pack
+            for k, v in fo.get("verdicts", {}).items()
+        },
+        cost.per_kg,
+        cost.per_serving,
+        cost.currency,
+        {"missing_prices": cost.missing_prices, "claim_verdicts": a.claims},
+    )
 
 
 def sweep(
@@ -179,9 +193,9 @@ def sweep(
     prices=None,
     reference=None,
 ) -> list[tuple[float, list[Point]]]:
-    return [
-        (x, figures(substitute(f, old, new, x, library), library, packs, f"{x:g} %", prices, reference)) for x in levels
-    ]
+    """Every level of a substitution, labelled together (see :func:`figures_many`)."""
+    level_formulas = [(f"{x:g} %", substitute(f, old, new, x, library)) for x in levels]
+    return list(zip(levels, figures_many(level_formulas, library, packs, prices, reference)))
 
 
 def first_levels(rows: list[tuple[float, list[Point]]]) -> dict[str, float]:
@@ -193,7 +207,7 @@ def first_levels(rows: list[tuple[float, list[Point]]]) -> dict[str, float]:
         for pt in points:
             seen |= {f"{pt.market}: claim {c}" for c in pt.claims}
             seen |= {f"{pt.market}: statement {s}" for s in pt.statements}
-        for key in seen:
+        for key in sorted(seen):  # sorted: the same input gives the same output
             if key not in firsts and not prev.get(key, False) and x != rows[0][0]:
                 firsts[key] = x
         prev = {k: True for k in seen}
@@ -239,34 +253,35 @@ def find_target(
         pts = figures(substitute(f, old, new, x, library), library, [pack], f"{x:g} %", prices, reference)
         return all(claim in p.claims for p in pts), pts
 
-    prev = 0.0
-    good, pts = ok(0.0)
-    if good:
-        return TargetResult(claim, pack.market, 0.0, tolerance, True, [], pts, "eligible without any replacement")
-    for x in [float(i) for i in range(1, 101)]:
-        good, pts = ok(x)
-        if good:
-            lo, hi = prev, x
-            hi_pts = pts
-            while hi - lo > tolerance:
-                mid = (lo + hi) / 2
-                g, p2 = ok(mid)
-                if g:
-                    hi, hi_pts = mid, p2
-                else:
-                    lo = mid
-            return TargetResult(
-                claim,
-                pack.market,
-                hi,
-                tolerance,
-                True,
-                [],
-                hi_pts,
-                f"eligible from {hi:.2f} % replacement (to within {tolerance:g} percentage points)",
-            )
-        prev = x
-    _, pts = ok(100.0)
+    # the 1 % grid in one engine run, then bisection inside the first step that turns eligible
+    grid = [float(i) for i in range(0, 101)]
+    scan = figures_many(
+        [(f"{x:g} %", substitute(f, old, new, x, library)) for x in grid], library, [pack], prices, reference
+    )
+    eligible = [all(claim in p.claims for p in pts) for pts in scan]
+    if eligible[0]:
+        return TargetResult(claim, pack.market, 0.0, tolerance, True, [], scan[0], "eligible without any replacement")
+    first = next((k for k, e in enumerate(eligible) if e), None)
+    if first is not None:
+        lo, hi, hi_pts = grid[first - 1], grid[first], scan[first]
+        while hi - lo > tolerance:
+            mid = (lo + hi) / 2
+            g, p2 = ok(mid)
+            if g:
+                hi, hi_pts = mid, p2
+            else:
+                lo = mid
+        return TargetResult(
+            claim,
+            pack.market,
+            hi,
+            tolerance,
+            True,
+            [],
+            hi_pts,
+            f"eligible from {hi:.2f} % replacement (to within {tolerance:g} percentage points)",
+        )
+    pts = scan[-1]
     blocking = []
     for p in pts:
         for v in p.extra["claim_verdicts"]:
