@@ -124,6 +124,7 @@ COMPONENTS: tuple[Component, ...] = (
     *(_C(k, u, d, group="vitamin") for k, u, d in VITAMINS),
     _C("choline", "mg", "choline, total [mg]", group="other"),
     _C("caffeine", "mg", "caffeine [mg]", group="other"),
+    _C("glycyrrhizinic_acid", "mg", "glycyrrhizinic acid and its ammonium salt (from liquorice) [mg]", group="other"),
     _C("sulphites", "mg", "sulphites expressed as SO2 [mg]", group="other"),
 )
 

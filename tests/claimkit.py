@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import yaml
 
+from labelcalc import components as C
 from labelcalc.formulation.composition import compose
 from labelcalc.intake.formula import load_formula
 from labelcalc.intake.library import load_library
@@ -12,9 +13,20 @@ from labelcalc.labelling.assess import assess
 from labelcalc.labelling.declare import declare
 
 
-def _ingredient(per100: dict, *, name="Test food", kinds=(), allergens=(), substance=None, omit_allergens=False):
+def _ingredient(
+    per100: dict,
+    *,
+    name="Test food",
+    kinds=(),
+    allergens=(),
+    substance=None,
+    omit_allergens=False,
+    nitrogen_factor=6.25,
+    functional_class=None,
+):
     body = dict(per100)
-    minerals_mg = sum(body.get(k, 0) for k in ("sodium", "potassium", "calcium", "iron"))
+    per_mg = {"mg": 1.0, "ug": 1e-3}
+    minerals_mg = sum(body.get(c.key, 0) * per_mg[c.unit] for c in C.COMPONENTS if c.part_of == "ash")
     if minerals_mg and "ash" not in body:
         body["ash"] = minerals_mg / 1000 * 3
     solids = sum(
@@ -62,10 +74,14 @@ def _ingredient(per100: dict, *, name="Test food", kinds=(), allergens=(), subst
         "per_100g": body,
         "kinds": list(kinds),
     }
+    if body.get("protein"):  # test data given as nitrogen x 6.25
+        ing["nitrogen_factor"] = nitrogen_factor
     if not omit_allergens:
         ing["allergens"] = list(allergens)
     if substance:
         ing["substance"] = substance
+    if functional_class:
+        ing["functional_class"] = functional_class
     return ing
 
 
@@ -79,6 +95,9 @@ class Lab:
     def add(self, ing_id, per100, **kw):
         self.ingredients[ing_id] = _ingredient(per100, **kw)
         return ing_id
+
+    def library(self):
+        return self._library()
 
     def _library(self):
         d = self.dir / "ingredients"

@@ -187,3 +187,21 @@ def test_cli_moisture_loss_over_water(write, lib_dir):
     res = runner.invoke(app, ["compose", str(p), "--library", str(lib_dir)])
     assert res.exit_code == 2 and "exceeds the 14.00 g of water present" in res.output
     assert "line 4" in res.output
+
+
+@pytest.mark.parametrize(
+    "method, words", [("us_101_9_method_e", "bomb calorimetry"), ("us_101_9_method_d", "approved")]
+)
+def test_cli_us_energy_methods_d_and_e_are_refused_plainly(write, lib_dir, method, words):
+    # 21 CFR 101.9(c)(1)(i)(D) and (E): allowed by the law, but not computable from a formula (E needs the
+    # laboratory's bomb-calorimetry figure less 1.25 kcal per g protein) - the CLI says so instead of faking it.
+    p = write(
+        "f.yaml",
+        f"""
+        product: {{id: f, name: F, category: snacks, serving: {{size: 30 g}}, energy_methods: {{us: {method}}}}}
+        batch: [{{ingredient: flour, amount: 100 g}}]
+    """,
+    )
+    res = runner.invoke(app, ["declare", str(p), "--library", str(lib_dir), "--market", "us"])
+    assert res.exit_code == 2 and "Traceback" not in res.output
+    assert "cannot be computed from a formula" in res.output and words in res.output

@@ -222,8 +222,16 @@ def test_npsc_caution_only_with_a_claim(lab):
     low = lab.assess(one(lab, {"starch": 60, "fat": 1}, fid="low"))
     assert statement(low, "npsc_health_claims") is not None
     sug = lab.add("sugar", {"sugars": 100, "added_sugars": 100}, name="Sugar", kinds=["sugar"])
-    rich = lab.add("rich", {"fat": 30, "saturated_fa": 12, "starch": 20, "sodium": 900}, name="Rich base")
-    p = lab.formula("rich", [{"ingredient": rich, "amount": "70 g"}, {"ingredient": sug, "amount": "30 g"}])
+    rich = lab.add("rich", {"fat": 30, "saturated_fa": 12, "starch": 20}, name="Rich base")
+    salt = lab.add("salt", {"sodium": 39000, "ash": 99}, name="Salt", kinds=["salt"])  # added salt: no 'no added salt'
+    p = lab.formula(
+        "rich",
+        [
+            {"ingredient": rich, "amount": "68 g"},
+            {"ingredient": sug, "amount": "30 g"},
+            {"ingredient": salt, "amount": "2 g"},
+        ],
+    )
     a = lab.assess(p)
     assert not [c for c in a.claims if c.verdict == ELIGIBLE]
     assert statement(a, "npsc_health_claims") is None
@@ -322,3 +330,30 @@ def test_added_water_below_5_percent_need_not_be_listed(lab, finished_g, listed)
     assert ("Water" in il["text"]) is listed
     if not listed:
         assert "need not be listed" in il["notes"][0]
+
+
+# --- Schedule 4 claims added with the vitamin and mineral work (S4—3 not read: from memory — verify) --------------
+@pytest.mark.parametrize("sodium, expected", [(50, ELIGIBLE), (50.1, NOT_ELIGIBLE)])
+def test_very_low_sodium(lab, sodium, expected):
+    # S4—3, sodium or salt, 'very low': no more than 50 mg per 100 g
+    assert verdict(lab.assess(one(lab, {"starch": 60, "sodium": sodium}, fid="vls")), "very_low_sodium") == expected
+
+
+def test_no_added_salt_fails_with_added_salt(lab):
+    # S4—3, sodium or salt, 'no added': no added sodium compound including salt
+    assert verdict(lab.assess(one(lab, {"starch": 60, "sodium": 200}, fid="nas")), "no_added_salt") == ELIGIBLE
+    base = lab.add("base2", {"starch": 60})
+    salt = lab.add("salt2", {"sodium": 39000, "ash": 99}, name="Salt", kinds=["salt"])
+    p = lab.formula("sal", [{"ingredient": base, "amount": "99 g"}, {"ingredient": salt, "amount": "1 g"}])
+    assert verdict(lab.assess(p), "no_added_salt") == NOT_ELIGIBLE
+
+
+@pytest.mark.parametrize("vitamin_c, expected", [(13.33, NOT_ELIGIBLE), (13.34, ELIGIBLE)])
+def test_source_of_vitamin_c_and_rdi_percent(lab, vitamin_c, expected):
+    # S4—3: 'source' = at least 10 % of the RDI per serving (vitamin C RDI 40 mg, Schedule 1: 4 mg per 30 g
+    # serving = 13.33 mg per 100 g); 1.2.8—9: with the claim the panel shows the %RDI.
+    p = one(lab, {"starch": 60, "vitamin_c": vitamin_c}, fid="vc", claims=["source of vitamin c"])
+    a = lab.assess(p)
+    assert verdict(a, "source_of_vitamin_c") == expected
+    row = a.declaration.row("vitamin_c")
+    assert row.shown and row.percent["per_serving"] == "10%"

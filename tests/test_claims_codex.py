@@ -12,6 +12,7 @@ from __future__ import annotations
 import pytest
 from claimkit import Lab, claim, one, statement, verdict  # noqa: F401
 
+from labelcalc.labelling.model import ELIGIBLE, NOT_ELIGIBLE
 from labelcalc.labelling.rulepack import load_packs
 
 PACK = load_packs()["codex"]
@@ -99,8 +100,38 @@ def test_ingredient_list_by_ingoing_weight(lab):
     assert lab.assess(p).ingredient_list["text"].startswith("Ingredients: Water, WHEAT FLOUR")
 
 
-def test_no_statements_and_no_claims_in_the_codex_pack(lab):
+def test_no_statements_in_the_codex_pack(lab):
     asp = lab.add("aspartame", {"protein": 0.001}, name="Aspartame", kinds=["sweetener"], substance="aspartame")
     base = lab.add("base", {"starch": 80})
     a = lab.assess(lab.formula("s", [{"ingredient": asp, "amount": "0.1 g"}, {"ingredient": base, "amount": "99.9 g"}]))
-    assert a.statements == [] and a.claims == []
+    assert a.statements == []
+
+
+# CXG 23-1997, table of conditions for nutrient content claims (from memory — verify): solids per 100 g.
+@pytest.mark.parametrize(
+    "claim_id, per100, expected",
+    [
+        ("low_fat", {"fat": 3, "starch": 80}, ELIGIBLE),  # 'low': 3 g per 100 g
+        ("low_fat", {"fat": 3.01, "starch": 80}, NOT_ELIGIBLE),
+        ("fat_free", {"fat": 0.5, "starch": 80}, ELIGIBLE),  # 'free': 0.5 g per 100 g
+        ("fat_free", {"fat": 0.51, "starch": 80}, NOT_ELIGIBLE),
+        ("low_sodium", {"sodium": 120, "starch": 80}, ELIGIBLE),  # 'low': 0.12 g per 100 g
+        ("low_sodium", {"sodium": 121, "starch": 80}, NOT_ELIGIBLE),
+        ("very_low_sodium", {"sodium": 40, "starch": 80}, ELIGIBLE),  # 'very low': 0.04 g per 100 g
+        ("very_low_sodium", {"sodium": 40.1, "starch": 80}, NOT_ELIGIBLE),
+        ("sodium_free", {"sodium": 5, "starch": 80}, ELIGIBLE),  # 'free': 0.005 g per 100 g
+        ("sodium_free", {"sodium": 5.1, "starch": 80}, NOT_ELIGIBLE),
+        ("sugars_free", {"sugars": 0.5, "starch": 80}, ELIGIBLE),  # 'free': 0.5 g per 100 g
+        ("sugars_free", {"sugars": 0.51, "starch": 80}, NOT_ELIGIBLE),
+        # 'source' of a vitamin: 15 % of the NRV per 100 g (vitamin C NRV-R 100 mg: 15 mg), serving 30 g
+        ("source_of_vitamin_c", {"vitamin_c": 15, "starch": 80}, ELIGIBLE),
+        ("source_of_vitamin_c", {"vitamin_c": 14.9, "starch": 80, "fat": 10}, NOT_ELIGIBLE),
+        ("high_vitamin_c", {"vitamin_c": 30, "starch": 80}, ELIGIBLE),  # 'high': twice 'source'
+        # 'source' of protein: 10 % of the 50 g NRV per 100 g = 5 g (or 5 % per 100 kcal = 2.5 g)
+        ("source_of_protein", {"protein": 5, "starch": 80, "fat": 10}, ELIGIBLE),
+        ("source_of_protein", {"protein": 4.9, "starch": 80, "fat": 10}, NOT_ELIGIBLE),
+    ],
+)
+def test_codex_nutrient_content_claims(lab, claim_id, per100, expected):
+    a = lab.assess(one(lab, per100, fid=f"c{abs(hash((claim_id, str(per100)))) % 10**8}"))
+    assert verdict(a, claim_id) == expected

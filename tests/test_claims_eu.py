@@ -61,6 +61,8 @@ def _ingredient_yaml(key: str, spec: dict) -> str:
         lines.append(f"    allergens: {spec.get('allergens', [])}")
     if spec.get("kinds"):
         lines.append(f"    kinds: {spec['kinds']}")
+    if per.get("protein"):  # test data given as nitrogen x 6.25 (Annex I point 10)
+        lines.append(f"    nitrogen_factor: {spec.get('nitrogen_factor', 6.25)}")
     if spec.get("substance"):
         lines.append(f"    substance: {spec['substance']}")
     if spec.get("lipid_energy"):
@@ -428,9 +430,8 @@ def test_sweetener_and_phenylalanine_statements(lab):
     a = lab.assess(lab.formula([(asp, 0.05), (base, 99.95)]))
     ids = statement_ids(a)
     assert {"with_sweeteners", "phenylalanine"} <= ids
-    # 2.2 needs an added sugar as well; the engine cannot AND triggers, so it is raised with a caution
-    (s,) = [s for s in a.statements if s.statement == "with_sugars_and_sweeteners"]
-    assert "BOTH" in s.caution
+    # 2.2 needs an added sugar as well (both conditions, Annex III point 2.2): a sweetener alone does not raise it
+    assert "with_sugars_and_sweeteners" not in ids
     (p,) = [s for s in a.statements if s.statement == "phenylalanine"]
     assert "E 951" in p.caution and "contains aspartame (a source of phenylalanine)" in p.caution
 

@@ -108,8 +108,36 @@ def test_daily_intake_reference_values(pack, key, amount_unit):
     assert (rv.amount, rv.unit) == amount_unit
 
 
+# Schedule 1, S1—2: recommended dietary intakes (RDIs) used for %RDI (from memory — verify).
+RDI = {
+    "rdi_vitamin_a": (750, "ug"),  # S1—2 (from memory — verify)
+    "rdi_vitamin_c": (40, "mg"),  # S1—2 (from memory — verify)
+    "rdi_calcium": (800, "mg"),  # S1—2 (from memory — verify)
+    "rdi_iron": (12, "mg"),  # S1—2 (from memory — verify)
+    "rdi_vitamin_d": (10, "ug"),  # S1—2 (from memory — verify)
+    "rdi_vitamin_e": (10, "mg"),  # S1—2 (from memory — verify)
+    "rdi_thiamin": (1.1, "mg"),  # S1—2 (from memory — verify)
+    "rdi_riboflavin": (1.7, "mg"),  # S1—2 (from memory — verify)
+    "rdi_niacin": (10, "mg"),  # S1—2 (from memory — verify)
+    "rdi_vitamin_b6": (1.6, "mg"),  # S1—2 (from memory — verify)
+    "rdi_folate": (200, "ug"),  # S1—2 (from memory — verify)
+    "rdi_vitamin_b12": (2, "ug"),  # S1—2 (from memory — verify)
+    "rdi_phosphorus": (1000, "mg"),  # S1—2 (from memory — verify)
+    "rdi_iodine": (150, "ug"),  # S1—2 (from memory — verify)
+    "rdi_magnesium": (320, "mg"),  # S1—2 (from memory — verify)
+    "rdi_zinc": (12, "mg"),  # S1—2 (from memory — verify)
+    "rdi_selenium": (70, "ug"),  # S1—2 (from memory — verify)
+}
+
+
+@pytest.mark.parametrize("key,amount_unit", sorted(RDI.items()))
+def test_rdi_reference_values(pack, key, amount_unit):
+    rv = pack.reference_values[key]
+    assert (rv.amount, rv.unit) == amount_unit
+
+
 def test_every_reference_value_is_tested(pack):
-    assert set(pack.reference_values) == set(DAILY_INTAKE)
+    assert set(pack.reference_values) == set(DAILY_INTAKE) | set(RDI)
 
 
 def test_panel_order_and_basis(pack):
@@ -130,8 +158,10 @@ def test_polyols_declared_at_5_g_per_100_g(pack):
 
 
 def test_no_row_shows_di_by_default(pack):
-    # %DI is optional (1.2.8—8(1)).
-    assert not any(r.percent for r in pack.rows)
+    # %DI is optional (1.2.8—8(1)); a vitamin or mineral row carries its %RDI, shown only with a claim about it
+    # (1.2.8—9).
+    assert not any(r.percent and not r.percent.startswith("rdi_") for r in pack.rows)
+    assert all(r.when and all(t.claim_about for t in r.when) for r in pack.rows if (r.percent or "").startswith("rdi_"))
 
 
 # Schedule 11, S11—2(2) and (3), kJ/g (the tables were not read: from memory — verify);

@@ -275,6 +275,26 @@ DAILY_VALUES = {
     "vitamin_d": (20, "ug"),  # from memory — verify
     "vitamin_e": (15, "mg"),  # from memory — verify
     "vitamin_k": (120, "ug"),  # from memory — verify
+    "vitamin_c": (90, "mg"),  # Part 2, column 4 (from memory — verify)
+    "thiamin": (1.2, "mg"),  # Part 2, column 4 (from memory — verify)
+    "riboflavin": (1.3, "mg"),  # Part 2, column 4 (from memory — verify)
+    "niacin": (16, "mg"),  # Part 2, column 4 (from memory — verify)
+    "vitamin_b6": (1.7, "mg"),  # Part 2, column 4 (from memory — verify)
+    "folate": (400, "ug"),  # Part 2, column 4 (from memory — verify)
+    "vitamin_b12": (2.4, "ug"),  # Part 2, column 4 (from memory — verify)
+    "biotin": (30, "ug"),  # Part 2, column 4 (from memory — verify)
+    "pantothenic_acid": (5, "mg"),  # Part 2, column 4 (from memory — verify)
+    "phosphorus": (1250, "mg"),  # Part 2, column 4 (from memory — verify)
+    "iodine": (150, "ug"),  # Part 2, column 4 (from memory — verify)
+    "magnesium": (420, "mg"),  # Part 2, column 4 (from memory — verify)
+    "zinc": (11, "mg"),  # Part 2, column 4 (from memory — verify)
+    "selenium": (55, "ug"),  # Part 2, column 4 (from memory — verify)
+    "copper": (0.9, "mg"),  # Part 2, column 4 (from memory — verify)
+    "manganese": (2.3, "mg"),  # Part 2, column 4 (from memory — verify)
+    "chromium": (35, "ug"),  # Part 2, column 4 (from memory — verify)
+    "molybdenum": (45, "ug"),  # Part 2, column 4 (from memory — verify)
+    "chloride": (2300, "mg"),  # Part 2, column 4 (from memory — verify)
+    "choline": (550, "mg"),  # Part 2, column 4 (from memory — verify)
 }
 
 

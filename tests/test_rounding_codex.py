@@ -105,6 +105,23 @@ NRVS = {
     "saturated_fat": (20, "g"),  # NRV-NCD (from memory — verify)
     "sodium": (2000, "mg"),  # NRV-NCD
     "potassium": (3500, "mg"),  # NRV-NCD (adopted 2015)
+    "vitamin_c": (100, "mg"),  # NRV-R (from memory — verify)
+    "thiamin": (1.2, "mg"),  # NRV-R (from memory — verify)
+    "riboflavin": (1.2, "mg"),  # NRV-R (from memory — verify)
+    "niacin": (15, "mg"),  # NRV-R (from memory — verify)
+    "vitamin_b6": (1.3, "mg"),  # NRV-R (from memory — verify)
+    "folate": (400, "ug"),  # NRV-R (from memory — verify)
+    "vitamin_b12": (2.4, "ug"),  # NRV-R (from memory — verify)
+    "biotin": (30, "ug"),  # NRV-R (from memory — verify)
+    "pantothenic_acid": (5, "mg"),  # NRV-R (from memory — verify)
+    "phosphorus": (700, "mg"),  # NRV-R (from memory — verify)
+    "iodine": (150, "ug"),  # NRV-R (from memory — verify)
+    "magnesium": (310, "mg"),  # NRV-R (from memory — verify)
+    "zinc": (11, "mg"),  # NRV-R (from memory — verify)
+    "selenium": (60, "ug"),  # NRV-R (from memory — verify)
+    "copper": (0.9, "mg"),  # NRV-R (from memory — verify)
+    "manganese": (3, "mg"),  # NRV-R (from memory — verify)
+    "molybdenum": (45, "ug"),  # NRV-R (from memory — verify)
 }
 
 

@@ -174,13 +174,9 @@ def test_rows_use_table4_rules(pack):
         "monounsaturates": "fatty_acids",
         "polyunsaturates": "fatty_acids",
         "salt": "salt",
-        "vitamin_a": "vitamin_mineral_3sf",
-        "potassium": "vitamin_mineral_3sf",
-        "calcium": "vitamin_mineral_3sf",
-        "vitamin_d": "vitamin_mineral_2sf",
-        "vitamin_e": "vitamin_mineral_2sf",
-        "vitamin_k": "vitamin_mineral_2sf",
-        "iron": "vitamin_mineral_2sf",
+        # Commission guidance (Dec 2012) Table 4: 3 significant figures for vitamin A, folic acid, chloride,
+        # calcium, phosphorus, magnesium, iodine and potassium; 2 for the other vitamins and minerals.
+        **{k: "vitamin_mineral_3sf" if k in THREE_SF else "vitamin_mineral_2sf" for k in ANNEX_XIII_ORDER},
     }
     assert {r.nutrient: r.rounding for r in pack.rows} == expected
 
@@ -198,6 +194,37 @@ ANNEX_XIII_PART_B = {
     "protein": (50, "g"),
     "salt": (6, "g"),
 }
+# Annex XIII Part A point 1, in its order (vitamins, then minerals).
+ANNEX_XIII_ORDER = [
+    "vitamin_a",
+    "vitamin_d",
+    "vitamin_e",
+    "vitamin_k",
+    "vitamin_c",
+    "thiamin",
+    "riboflavin",
+    "niacin",
+    "vitamin_b6",
+    "folate",
+    "vitamin_b12",
+    "biotin",
+    "pantothenic_acid",
+    "potassium",
+    "chloride",
+    "calcium",
+    "phosphorus",
+    "magnesium",
+    "iron",
+    "zinc",
+    "copper",
+    "manganese",
+    "fluoride",
+    "selenium",
+    "chromium",
+    "molybdenum",
+    "iodine",
+]
+THREE_SF = {"vitamin_a", "folate", "chloride", "calcium", "phosphorus", "magnesium", "iodine", "potassium"}
 # Annex XIII Part A point 1: nutrient reference values (NRVs), adults.
 ANNEX_XIII_PART_A = {
     "nrv_vitamin_a": (800, "ug"),
@@ -207,6 +234,26 @@ ANNEX_XIII_PART_A = {
     "nrv_potassium": (2000, "mg"),
     "nrv_calcium": (800, "mg"),
     "nrv_iron": (14, "mg"),
+    "nrv_vitamin_c": (80, "mg"),  # Annex XIII Part A point 1 (from memory — verify)
+    "nrv_thiamin": (1.1, "mg"),  # Annex XIII Part A point 1 (from memory — verify)
+    "nrv_riboflavin": (1.4, "mg"),  # Annex XIII Part A point 1 (from memory — verify)
+    "nrv_niacin": (16, "mg"),  # Annex XIII Part A point 1 (from memory — verify)
+    "nrv_vitamin_b6": (1.4, "mg"),  # Annex XIII Part A point 1 (from memory — verify)
+    "nrv_folate": (200, "ug"),  # Annex XIII Part A point 1 (from memory — verify)
+    "nrv_vitamin_b12": (2.5, "ug"),  # Annex XIII Part A point 1 (from memory — verify)
+    "nrv_biotin": (50, "ug"),  # Annex XIII Part A point 1 (from memory — verify)
+    "nrv_pantothenic_acid": (6, "mg"),  # Annex XIII Part A point 1 (from memory — verify)
+    "nrv_phosphorus": (700, "mg"),  # Annex XIII Part A point 1 (from memory — verify)
+    "nrv_iodine": (150, "ug"),  # Annex XIII Part A point 1 (from memory — verify)
+    "nrv_magnesium": (375, "mg"),  # Annex XIII Part A point 1 (from memory — verify)
+    "nrv_zinc": (10, "mg"),  # Annex XIII Part A point 1 (from memory — verify)
+    "nrv_selenium": (55, "ug"),  # Annex XIII Part A point 1 (from memory — verify)
+    "nrv_copper": (1, "mg"),  # Annex XIII Part A point 1 (from memory — verify)
+    "nrv_manganese": (2, "mg"),  # Annex XIII Part A point 1 (from memory — verify)
+    "nrv_chromium": (40, "ug"),  # Annex XIII Part A point 1 (from memory — verify)
+    "nrv_molybdenum": (50, "ug"),  # Annex XIII Part A point 1 (from memory — verify)
+    "nrv_chloride": (800, "mg"),  # Annex XIII Part A point 1 (from memory — verify)
+    "nrv_fluoride": (3.5, "mg"),  # Annex XIII Part A point 1 (from memory — verify)
 }
 
 
@@ -225,12 +272,18 @@ def test_nrv_units_match_nutrient_units(pack):
 
 
 def test_vitamins_minerals_only_in_significant_amount(pack):
-    """Annex XIII Part A point 2: 15 % of the NRV per 100 g (products other than beverages)."""
-    vm = {"vitamin_a", "vitamin_d", "vitamin_e", "vitamin_k", "potassium", "calcium", "iron"}
+    """Annex XIII Part A point 2: 15 % of the NRV per 100 g (products other than beverages), 7.5 % per 100 ml
+    (beverages), 15 % per portion (single-portion packages); Reg. (EC) No 1924/2006 Art. 7 (a claim)."""
     for row in pack.rows:
-        if row.nutrient in vm:
+        if row.nutrient in ANNEX_XIII_ORDER:
             assert row.requirement == "conditional"
-            assert [t.at_least_percent_reference for t in row.when] == [15]
+            got = [(t.at_least_percent_reference, t.form, t.reference_basis, t.claim_about) for t in row.when]
+            assert got == [
+                (15, "solid", "per_100g", None),
+                (7.5, "liquid", "per_100ml", None),
+                (15, "any", "per_container_if_single", None),
+                (None, "any", "per_100g", row.nutrient),
+            ]
             assert row.percent == f"nrv_{row.nutrient}"
 
 
@@ -257,13 +310,7 @@ def test_rows_in_annex_xv_order(pack):
         "fibre",
         "protein",
         "salt",
-        "vitamin_a",
-        "vitamin_d",
-        "vitamin_e",
-        "vitamin_k",
-        "potassium",
-        "calcium",
-        "iron",
+        *ANNEX_XIII_ORDER,
     ]
     mandatory = [r.nutrient for r in pack.rows if r.requirement == "mandatory"]
     assert mandatory == ["energy_kj", "energy_kcal", "fat", "saturates", "carbohydrate", "sugars", "protein", "salt"]

@@ -37,7 +37,7 @@ def comp(tmp_path_factory):
     body = ", ".join(f"{k}: {v}" for k, v in FOOD.items())
     (d / "ingredients" / "l.yaml").write_text(
         f"ingredients:\n  food:\n    label_name: Food\n    source: worked example\n    assumed_zero: [{{components: [proximates, lipids, carbohydrates, polyols, fibre, minerals, vitamins, others], reason: 'test fixture: every component not given is none'}}]\n"
-        f"    per_100g: {{{body}}}\n    allergens: []\n",
+        f"    per_100g: {{{body}}}\n    allergens: []\n    nitrogen_factor: 6.25\n",
         encoding="utf-8",
     )
     (d / "p.yaml").write_text(

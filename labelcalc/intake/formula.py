@@ -66,6 +66,9 @@ class Header(Strict):
     claims: list[str] = Field(
         default_factory=list, description="claims the label is meant to make (checked by 'assess')"
     )
+    packed_in_protective_atmosphere: bool = Field(
+        False, description="packaging gases extend the food's durability (a statement in some markets)"
+    )
     energy_methods: dict[str, str] | None = Field(
         None,
         description="market -> energy factor set id, where the market allows a choice (e.g. {us: us_101_9_method_b})",

@@ -110,6 +110,9 @@ class Ingredient(BaseModel):
     allergens: list[str] | None = None
     sub_ingredients: list[str] | None = None
     kinds: list[str] = Field(default_factory=list)
+    functional_class: str | None = Field(
+        None, description="for an additive: its function in the food (e.g. sweetener, acid), as markets name it"
+    )
     substance: str | None = None
     atwater: AtwaterFactors | None = None
     lipid_energy: LipidEnergy | None = None
@@ -131,8 +134,20 @@ class Ingredient(BaseModel):
 
     @cached_property
     def values(self) -> dict[str, float]:
-        """Known leaf values per 100 g after expanding convenience totals."""
-        return _expand(self.per_100g, self.zeros)[0]
+        """Known leaf values per 100 g after expanding convenience totals.
+
+        Where the entry gives protein and its ``nitrogen_factor`` but no nitrogen, nitrogen is protein / factor
+        (so a market that fixes protein as nitrogen x 6.25 can recompute it); zero protein has zero nitrogen."""
+        vals = _expand(self.per_100g, self.zeros)[0]
+        if self.per_100g.get("nitrogen") is None:
+            protein = vals.get("protein")
+            if protein == 0:
+                vals["nitrogen"] = 0.0
+            elif protein is not None and self.nitrogen_factor:
+                vals["nitrogen"] = protein / self.nitrogen_factor
+            else:  # protein present (or unknown) and no factor: nitrogen is unknown, never an assumed zero
+                vals.pop("nitrogen", None)
+        return vals
 
     @cached_property
     def zeros(self) -> dict[str, str]:

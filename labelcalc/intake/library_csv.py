@@ -26,6 +26,7 @@ _CSV_META = {
     "sub_ingredients",
     "kinds",
     "substance",
+    "functional_class",
     "price_per_kg",
     "currency",
 }

@@ -92,6 +92,26 @@ def _match(pack, nutrient: str, lab: LabFile, comp: Composition) -> tuple[Result
     return None, None, None
 
 
+def _part_is_whole(comp: Composition, pairs: dict[str, str]) -> bool:
+    """Every part component makes up the whole of its whole (to 1e-9 g per 100 g); unknown is not."""
+    for part, whole in pairs.items():
+        p, w = comp.value(part), comp.value(whole)
+        if p is None or w is None or abs(w - p) > 1e-9:
+            return False
+    return True
+
+
+def _whole_result(pairs: dict[str, str], lab: LabFile) -> tuple[Result | None, float | None]:
+    """Where a rule holds because a part is the whole (all sugars added), the lab's result for the whole
+    (sugars) measures the part (added sugars)."""
+    wholes = set(pairs.values())
+    for r in lab.results:
+        comps, _, afactor = ANALYTES[r.analyte]
+        if set(comps) == wholes:
+            return r, 1.0 / afactor
+    return None, None
+
+
 def _rule_for(pack, nutrient: str, comp: Composition) -> ComplianceRule | None:
     if not pack.compliance:
         return None
@@ -106,6 +126,8 @@ def _rule_for(pack, nutrient: str, comp: Composition) -> ComplianceRule | None:
         if nutrient not in rule.nutrients:
             continue
         if rule.applies_to == "added" and not added or rule.applies_to == "naturally_occurring" and added:
+            continue
+        if rule.only_if_all_of and not _part_is_whole(comp, rule.only_if_all_of):
             continue
         return rule
     return None
@@ -152,6 +174,8 @@ def verify(
     for r in decl.shown_rows:
         res, factor, note = _match(pack, r.nutrient, lab, comp)
         rule = _rule_for(pack, r.nutrient, comp)
+        if res is None and rule is not None and rule.only_if_all_of:
+            res, factor = _whole_result(rule.only_if_all_of, lab)
         if res is None:
             rows.append(
                 RowVerdict(

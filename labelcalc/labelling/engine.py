@@ -330,6 +330,10 @@ class LabelEngine:
             ra = self.rounded[row.nutrient][b]
             vals = self.column_values(row.nutrient, b)
             base_q = np.where(from_declared & (ra.number != NONE), ra.number, q_of(vals))
+            if from_declared and row.percent_of_declared_sum:  # e.g. saturated + trans from their declared amounts
+                nums = [self.rounded[k][b].number for k in row.percent_of_declared_sum]
+                all_numbers = np.all([x != NONE for x in nums], axis=0)
+                base_q = np.where(all_numbers, np.sum(nums, axis=0), base_q)
             raw = base_q / Q / ref.amount * 100
             pr = round_values(q_of(raw), rule)
             zero = (ra.number == 0) if from_declared else np.zeros(self.n, dtype=bool)
@@ -354,6 +358,16 @@ class LabelEngine:
         for t in row.when:  # alternatives; every criterion of one trigger must hold
             ok = np.ones(n, dtype=bool)
             criteria = 0
+            if t.form != "any":  # a filter, not a criterion on its own
+                ok &= self.liquid if t.form == "liquid" else ~self.liquid
+            if t.claim_about is not None:
+                want = "_".join(t.claim_about.lower().split())
+                ok &= np.array([any(want in claim_key(x) for x in f.header.claims) for f in self.products], dtype=bool)
+                criteria += 1
+            if t.added_source is not None:
+                parts = nutrient_components(self.pack, row.nutrient)
+                ok &= np.array([bool(parts & s.get(t.added_source, set())) for s in self.added_sources], dtype=bool)
+                criteria += 1
             if t.claim is not None:
                 want = "_".join(t.claim.lower().split())
                 ok &= np.array(
@@ -372,7 +386,8 @@ class LabelEngine:
             if t.at_least_percent_reference is not None:
                 if row.percent:
                     ref = self.pack.reference_values[row.percent].amount
-                    ok &= ~np.isnan(v100) & compare(np.nan_to_num(v100) / ref * 100, ">=", t.at_least_percent_reference)
+                    v = self.on_reference_basis(v100, t.reference_basis)
+                    ok &= ~np.isnan(v) & compare(np.nan_to_num(v) / ref * 100, ">=", t.at_least_percent_reference)
                 else:
                     ok &= False
                 criteria += 1
@@ -389,6 +404,38 @@ class LabelEngine:
             elif row.show == "when_present":
                 shown = shown | present
         self.shown[row.nutrient] = shown
+
+    @cached_property
+    def added_sources(self) -> list[dict[str, set[str]]]:
+        """Per product: ingredient kind -> components the ingredients of that kind bring (value above zero)."""
+        out = []
+        for f in self.products:
+            got: dict[str, set[str]] = {}
+            for ing in f.ingredients_used():
+                brought = {k for k, v in ing.values.items() if v > 0}
+                for kind in ing.kinds:
+                    got.setdefault(kind, set()).update(brought)
+            out.append(got)
+        return out
+
+    @cached_property
+    def single_portion(self) -> np.ndarray:
+        """The package is one portion: the market's single-serving rule says so, or the serving is the package."""
+        return np.array(
+            [
+                bool(p.single or (p.serving and p.container and abs(p.serving - p.container) <= 1e-9))
+                for p in self.plans
+            ],
+            dtype=bool,
+        )
+
+    def on_reference_basis(self, v100: np.ndarray, basis: str) -> np.ndarray:
+        """Per-100 g values on a row trigger's basis (NaN where that basis does not apply or is unknown)."""
+        if basis == "per_100ml":
+            return v100 * self.density
+        if basis == "per_container_if_single":
+            return np.where(self.single_portion, v100 * self.container / 100, np.nan)
+        return v100
 
     def texts(self, nutrient: str, basis: str) -> list[str]:
         """Printed figures (with units) of one row and column for every product ("unknown" where unknown)."""
@@ -588,6 +635,15 @@ class LabelEngine:
             decided_false = np.any([~p.hit & ~p.undecided for p in parts], axis=0)
             undecided = ~hit & ~decided_false
             return TriggerResult(t, hit, undecided, parts=parts)
+        if t.form != "any":
+            form_ok = self.liquid if t.form == "liquid" else ~self.liquid
+            inner = self.trigger(t.model_copy(update={"form": "any"}))
+            inner.trigger = t
+            inner.hit, inner.undecided = inner.hit & form_ok, inner.undecided & form_ok
+            return inner
+        if t.header_flag:
+            flag = np.array([bool(getattr(f.header, t.header_flag)) for f in self.products], dtype=bool)
+            return TriggerResult(t, flag, no)
         if t.substance:
             want = t.substance.lower()
             hits = [[i.id for i in f.ingredients_used() if (i.substance or "").lower() == want] for f in self.products]
@@ -601,6 +657,9 @@ class LabelEngine:
             if t.basis == "per_serving":
                 unk = unk | np.isnan(self.serving)
                 v = v * self.serving / 100
+            elif t.basis == "per_100ml":
+                unk = unk | np.isnan(self.density)
+                v = v * self.density
             ok = ~unk
             if t.at_least is not None:
                 hit = ok & (q_of(v) >= q_scalar(t.at_least))
@@ -669,8 +728,7 @@ class LabelEngine:
                         s = self.serving[i]
                         if (
                             not np.isnan(s)
-                            and fop.portion_rule_above_g
-                            and s > fop.portion_rule_above_g
+                            and portion_rule_applies(fop, float(s), bool(use_liquid[i]), float(self.density[i]))
                             and b.portion_high_above is not None
                         ):
                             portion[i] = v[i] * s / 100
@@ -735,6 +793,20 @@ class LabelEngine:
                 flag[i] = bool(v[i] >= 0.8 * bound or (not np.isnan(ns) and ns >= 2 and v[i] * ns >= bound))
             out[row.nutrient] = flag
         return out
+
+
+def portion_rule_applies(fop, serving_g: float, drink: bool, density: float) -> bool:
+    """Whether a colour scheme's per-portion limits apply: foods above ``portion_rule_above_g``, drinks
+    (judged per 100 ml) above ``liquid_portion_rule_above_ml`` of portion volume (needs the density)."""
+    if drink:
+        limit = fop.liquid_portion_rule_above_ml
+        return bool(limit and not np.isnan(density) and q_scalar(serving_g / density) > q_scalar(limit))
+    return bool(fop.portion_rule_above_g and q_scalar(serving_g) > q_scalar(fop.portion_rule_above_g))
+
+
+def nutrient_components(pack: RulePack, nutrient: str) -> set[str]:
+    """Leaf components a pack nutrient is built from."""
+    return {k for c in pack.nutrients[nutrient].sum or {} for k in C.DERIVED.get(c, (c,))}
 
 
 def fop_threshold(fop, ref_g: float | None, category: str | None) -> float | None:

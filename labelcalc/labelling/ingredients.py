@@ -103,6 +103,7 @@ def ingredient_list(comp: Composition, pack: RulePack) -> dict | None:
                         "allergen": bool(names_of(ing)),
                         "allergen_names": names_of(ing),
                         "is_water": "water" in ing.kinds or ing.id == "water",
+                        "functional_class": ing.functional_class,
                         "components": [
                             {"name": n, "allergen": False, "components": []} for n in (ing.sub_ingredients or [])
                         ],
@@ -176,7 +177,7 @@ def ingredient_list(comp: Composition, pack: RulePack) -> dict | None:
                 )
                 quid.append({"ingredient": it["name"], "percent": pct, "text": it["quid"]})
     emphasis = pack.allergens.emphasis if pack.allergens else "bold"
-    text = rule.heading + " " + _render(items, emphasis) + "."
+    text = rule.heading + " " + _render(_by_class(items, rule, emphasis), emphasis) + "."
     return {
         "heading": rule.heading,
         "items": items,
@@ -231,6 +232,37 @@ def allergen_name(it: dict, emphasis: str, bold=str.upper) -> str:
         missing = [n for n in it.get("allergen_names", []) if n.lower() not in name.lower()]
         return f"{name} ({', '.join(missing)})" if missing else name
     return bold(name)
+
+
+def _by_class(items: list[dict], rule, emphasis: str) -> list[dict]:
+    """Additives named by the market's functional class: those of one class are grouped where the first
+    (heaviest) of them stands, e.g. 'Sweeteners: aspartame, acesulfame K' (style of the pack's rule)."""
+    if not rule.functional_classes:
+        return items
+    out: list[dict] = []
+    groups: dict[str, dict] = {}
+    for it in items:
+        cls = rule.functional_classes.get(it.get("functional_class") or "")
+        if cls is None:
+            comps = it["components"]
+            out.append({**it, "components": _by_class(comps, rule, emphasis)} if comps else it)
+            continue
+        g = groups.get(cls.one)
+        if g is None:
+            g = groups[cls.one] = {**it, "members": [], "cls": cls, "allergen": False, "components": []}
+            out.append(g)
+        g["members"].append(allergen_name(it, emphasis))
+    for g in groups.values():
+        cls, members = g.pop("cls"), g.pop("members")
+        label = cls.one if len(members) == 1 else cls.many
+        joined = ", ".join(members)
+        if rule.functional_class_style == "class_parentheses":
+            g["name"] = f"{label} ({joined})"
+        elif rule.functional_class_style == "name_then_class":
+            g["name"] = f"{joined} ({label})"
+        else:
+            g["name"] = f"{label}: {joined}"
+    return out
 
 
 def _render(items: list[dict], emphasis: str = "bold") -> str:

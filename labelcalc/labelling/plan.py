@@ -53,6 +53,17 @@ def energy_method(f, pack: RulePack) -> str:
     if chosen is None:
         return pack.panel.energy_factor_set
     allowed = [pack.panel.energy_factor_set, *pack.panel.energy_factor_sets_allowed]
+    not_computed = pack.panel.energy_methods_not_computed.get(chosen)
+    if not_computed is not None:
+        raise InputError(
+            Problem(
+                f"energy method '{chosen}' cannot be computed from a formula: {not_computed.why} "
+                f"({not_computed.citation})",
+                file=f.file,
+                field=f"product.energy_methods.{pack.market}",
+                fix=f"use one of: {', '.join(allowed)}, or enter the laboratory's figure by hand",
+            )
+        )
     if chosen not in allowed:
         raise InputError(
             Problem(

@@ -93,6 +93,10 @@ def _why(eng: E.LabelEngine, row, i: int) -> str:
         if not hit[i]:
             continue
         reasons = []
+        if t.claim_about is not None:
+            reasons.append(f"a claim about '{t.claim_about}' is made")
+        if t.added_source is not None:
+            reasons.append(f"an ingredient of kind '{t.added_source}' brings it")
         if t.claim is not None:
             reasons.append(f"a claim about '{t.claim}' is made")
         if t.present:
@@ -102,7 +106,10 @@ def _why(eng: E.LabelEngine, row, i: int) -> str:
         if t.at_least_per_100g is not None:
             reasons.append(f"at least {format_number(to_decimal(t.at_least_per_100g))} per 100 g")
         if t.at_least_percent_reference is not None:
-            reasons.append(f"at least {t.at_least_percent_reference:g} % of the reference value per 100 g")
+            basis = {"per_100g": "per 100 g", "per_100ml": "per 100 ml", "per_container_if_single": "per package"}
+            reasons.append(
+                f"at least {t.at_least_percent_reference:g} % of the reference value {basis[t.reference_basis]}"
+            )
         return "required: " + " and ".join(reasons)
     if row.requirement == "voluntary":
         if row.show == "always":
@@ -361,6 +368,8 @@ def _trigger_words(eng: E.LabelEngine, st, tr: E.TriggerResult, i: int, claims: 
     if tr.parts is not None:
         words = [_trigger_words(eng, st, p, i, claims) for p in tr.parts]
         return " and ".join(w[0] for w in words), [x for w in words for x in w[1]]
+    if t.header_flag:
+        return f"the formula says {t.header_flag.replace('_', ' ')}", []
     if t.substance and tr.hits is not None:
         return f"contains {t.substance} ({', '.join(tr.hits[i])})", []
     if t.kind and tr.hits is not None:
@@ -409,6 +418,8 @@ def _undecided_words(eng: E.LabelEngine, tr: E.TriggerResult, i: int) -> list[st
     base_known = tr.base_unknown is not None and not tr.base_unknown[i]
     if t.basis == "per_serving" and np.isnan(eng.serving[i]) and base_known:
         return [f"{_what(t)} per serving: no serving size"]
+    if t.basis == "per_100ml" and np.isnan(eng.density[i]) and base_known:
+        return [f"{_what(t)} per 100 ml: density_g_per_ml is needed"]
     return [f"{_what(t)} is unknown"]
 
 

@@ -115,6 +115,19 @@ class Trigger(Strict):
         None, description="shown when per 100 g it reaches this % of its reference value"
     )
     at_least_per_100g: float | None = Field(None, description="shown when per 100 g it reaches this amount")
+    reference_basis: Literal["per_100g", "per_100ml", "per_container_if_single"] = Field(
+        "per_100g",
+        description="basis of at_least_percent_reference: per 100 g, per 100 ml (needs the density), or per "
+        "package when the package is a single portion",
+    )
+    form: Literal["any", "solid", "liquid"] = Field("any", description="the trigger holds only for this form")
+    claim_about: str | None = Field(
+        None, description="shown when the formula lists a claim whose name contains this (e.g. 'vitamin_c')"
+    )
+    added_source: str | None = Field(
+        None,
+        description="shown when an ingredient of this kind (e.g. 'fortificant') brings this row's nutrient",
+    )
 
 
 class Row(Strict):
@@ -129,6 +142,11 @@ class Row(Strict):
     percent: str | None = Field(None, description="reference value key for the percentage column")
     percent_rounding: str | None = None
     percent_from: Literal["declared", "unrounded"] | None = None
+    percent_of_declared_sum: list[str] = Field(
+        default_factory=list,
+        description="with percent_from declared: the percentage is taken from the sum of these rows' declared "
+        "amounts (e.g. Canada's saturated + trans from the declared saturated and trans amounts)",
+    )
     indent: int = Field(0, ge=0, le=3)
     bold: bool = False
     italic_words: list[str] = Field(
@@ -149,6 +167,12 @@ class Footnote(Cited):
     text: str
     text_second: str | None = Field(None, description="the footnote in the second official language (next line)")
     when: Literal["always", "percent_shown"] = "always"
+
+
+class NotComputed(Cited):
+    """A method the law allows that cannot be computed from a formula, and why."""
+
+    why: str = Field(min_length=10)
 
 
 class PanelLayout(Strict):
@@ -236,6 +260,10 @@ class Panel(Strict):
         default_factory=list,
         description="other factor sets the law allows; a formula may pick one (product.energy_methods)",
     )
+    energy_methods_not_computed: dict[str, NotComputed] = Field(
+        default_factory=dict,
+        description="methods the law allows that labelcalc cannot compute from a formula (id -> why, with citation)",
+    )
     footnotes: list[Footnote] = Field(default_factory=list)
     liquid_unit_basis: str = "per 100 ml"
     layout: PanelLayout = Field(default_factory=PanelLayout)
@@ -272,6 +300,10 @@ class RulePack(Strict):
                 errs.append(f"rows[{i}] has a percentage but no percent_rounding")
             if r.percent_rounding and r.percent_rounding not in self.rounding:
                 errs.append(f"rows[{i}] percent_rounding '{r.percent_rounding}' is not defined under 'rounding'")
+            earlier = {x.nutrient for x in self.rows[:i]}
+            for k in r.percent_of_declared_sum:
+                if k not in earlier:
+                    errs.append(f"rows[{i}] percent_of_declared_sum '{k}' must be a row listed before this one")
             if r.requirement == "conditional" and not r.when:
                 errs.append(f"rows[{i}] is conditional but has no 'when' triggers")
         for i, cl in enumerate(self.claims):
@@ -282,7 +314,7 @@ class RulePack(Strict):
         if len(ids) != len(set(ids)):
             errs.append("claim ids must be unique")
         for i, st in enumerate(self.statements):
-            for t in st.triggers:
+            for t in (x for top in st.triggers for x in top.flat()):
                 for cond in t.conditions:
                     if cond.quantity not in self.nutrients:
                         errs.append(

@@ -86,8 +86,8 @@ class Claim(Strict):
 
     @model_validator(mode="after")
     def _some(self):
-        if not self.conditions and not self.alternatives:
-            raise ValueError("a claim needs conditions or alternatives")
+        if not self.conditions and not self.alternatives and not self.fails_with_ingredient_kinds:
+            raise ValueError("a claim needs conditions, alternatives or fails_with_ingredient_kinds")
         uses_ref = any(c.versus_reference for c in self.conditions + [x for g in self.alternatives for x in g])
         if uses_ref and self.kind != "comparative":
             raise ValueError("conditions against the reference formula need kind: comparative")
@@ -95,23 +95,45 @@ class Claim(Strict):
 
 
 class StatementTrigger(Strict):
-    """One way a statement becomes required (a statement's triggers are alternatives)."""
+    """One way a statement becomes required (a statement's triggers are alternatives).
 
+    ``all_of`` makes a trigger that holds only when every sub-trigger holds (e.g. an added
+    sugar AND a sweetener); it cannot be mixed with the other criteria of the same trigger.
+    """
+
+    all_of: list[StatementTrigger] | None = Field(
+        None, min_length=2, description="holds when every one of these sub-triggers holds"
+    )
     substance: str | None = Field(None, description="an ingredient with this substance is used (e.g. aspartame)")
     kind: str | None = Field(None, description="an ingredient of this kind is used (e.g. sweetener)")
     components: list[str] | None = Field(None, description="sum of these components (or derived totals) ...")
     from_kinds: list[str] | None = Field(
         None, description="... counting only what ingredients of these kinds bring (e.g. added polyols)"
     )
-    basis: Literal["per_100g", "per_serving"] = "per_100g"
+    basis: Literal["per_100g", "per_100ml", "per_serving"] = Field(
+        "per_100g", description="per_100ml needs the formula's density"
+    )
+    form: Literal["any", "solid", "liquid"] = Field("any", description="the trigger holds only for this form")
+    header_flag: Literal["packed_in_protective_atmosphere"] | None = Field(
+        None, description="the formula's header sets this flag"
+    )
     at_least: float | None = None
     above: float | None = None
     present: bool | None = Field(None, description="true: any amount above zero")
     with_claim: bool | None = Field(None, description="only when a claim is made (or eligible)")
     conditions: list[Condition] = Field(default_factory=list, description="with with_claim: any of these conditions")
-    all_of: list[StatementTrigger] | None = Field(
-        None, description="holds when every one of these triggers holds (the statement's own list is any-of)"
-    )
+
+    @model_validator(mode="after")
+    def _one_kind(self):
+        if self.all_of is not None and (
+            self.substance or self.kind or self.components or self.with_claim or self.conditions or self.header_flag
+        ):
+            raise ValueError("a trigger with all_of holds only sub-triggers; put every criterion inside all_of")
+        return self
+
+    def flat(self) -> list[StatementTrigger]:
+        """This trigger and every sub-trigger, depth first."""
+        return [self] + [x for t in self.all_of or [] for x in t.flat()]
 
 
 class Compensation(Strict):
@@ -173,6 +195,13 @@ class QuidRule(Strict):
     confidence: Confidence
 
 
+class ClassName(Strict):
+    """How a market names one functional class of additives: for one additive, and for several."""
+
+    one: str
+    many: str
+
+
 class IngredientListRule(Strict):
     heading: str = "Ingredients:"
     heading_second: str | None = Field(
@@ -181,6 +210,16 @@ class IngredientListRule(Strict):
     second_language: str | None = Field(
         None, description="language code of the second list's names (library and sub-formula 'label_names')"
     )
+    functional_classes: dict[str, ClassName] = Field(
+        default_factory=dict,
+        description="library functional_class -> the class name the market prints before (or after) the additive",
+    )
+    functional_class_style: Literal["class_colon", "class_parentheses", "name_then_class"] = Field(
+        "class_colon",
+        description="class_colon: 'Sweeteners: aspartame, acesulfame K'; class_parentheses: 'Sweeteners "
+        "(aspartame, acesulfame K)'; name_then_class: 'sodium benzoate (preservative)'",
+    )
+    functional_classes_citation: str | None = None
     order: Literal["weight_at_use"] = "weight_at_use"
     water: Literal["as_used", "finished_product"] = Field(
         "as_used", description="finished_product: added water by its weight in the finished product"
@@ -207,7 +246,12 @@ class FrontOfPack(Strict):
     kind: Literal["colour_bands", "high_in_symbol"]
     nutrients: dict[str, FopBand] | None = None
     liquid_nutrients: dict[str, FopBand] | None = None
-    portion_rule_above_g: float | None = None
+    portion_rule_above_g: float | None = Field(
+        None, description="foods: per-portion limits apply above this portion [g]"
+    )
+    liquid_portion_rule_above_ml: float | None = Field(
+        None, description="drinks (liquid_nutrients): per-portion limits apply above this portion [ml]"
+    )
     high_in: dict[str, str] | None = Field(None, description="nutrient -> reference value key (high_in_symbol)")
     thresholds: list[dict] | None = Field(
         None, description="[{reference_amount_up_to: 30, percent: 10}, {main_dish: true, percent: 30}, {percent: 15}]"
@@ -234,6 +278,11 @@ class ComplianceRule(Strict):
     nutrients: list[str] = Field(min_length=1, description="pack nutrient keys the rule covers")
     applies_to: Literal["any", "added", "naturally_occurring"] = Field(
         "any", description="added: the nutrient is added (fortificant ingredients); naturally_occurring: it is not"
+    )
+    only_if_all_of: dict[str, str] | None = Field(
+        None,
+        description="{part: whole}: the rule applies only when the part component is the whole of the other "
+        "(e.g. {added_sugars: sugars}: every sugar in the food is added)",
     )
     basis: Literal["per_100g", "per_serving"] = "per_100g"
     compare_with: Literal["declared", "unrounded"] = "declared"
