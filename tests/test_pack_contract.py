@@ -6,6 +6,7 @@ from decimal import Decimal
 
 import pytest
 
+from labelcalc import components as C
 from labelcalc.formulation.energy import load_factor_set
 from labelcalc.labelling.rounding import apply_rounding
 from labelcalc.labelling.rulepack import load_packs
@@ -58,3 +59,55 @@ def test_mandatory_rows_are_rounded_to_text(pack):
     for r in pack.rows:
         if r.requirement == "mandatory":
             assert apply_rounding(12.345, pack.rounding[r.rounding]).text
+
+
+VITAMINS_MINERALS = {c.key for c in C.COMPONENTS if c.group in ("vitamin", "mineral")} - {"sodium"}
+
+
+def test_vitamin_and_mineral_rows_are_complete(pack):
+    """Every vitamin or mineral row has a unit matching its component, a rounding rule, a cited trigger, and its
+    percentage (where it has one) against a reference value in the same unit."""
+    for r in pack.rows:
+        nd = pack.nutrients[r.nutrient]
+        comps = set(nd.sum or {})
+        if not comps or not comps <= VITAMINS_MINERALS:
+            continue
+        assert all(C.unit_of(k) == nd.unit for k in comps), r.nutrient
+        if r.requirement == "conditional":
+            assert r.when, r.nutrient
+        if r.percent:
+            assert pack.reference_values[r.percent].unit == nd.unit, r.nutrient
+
+
+def test_statement_triggers_are_well_formed(pack):
+    for st in pack.statements:
+        for top in st.triggers:
+            for t in top.flat():
+                if t.all_of:
+                    continue
+                criteria = [t.substance, t.kind, t.components, t.with_claim, t.header_flag]
+                assert any(x for x in criteria), (st.id, t)
+                if t.components:
+                    for k in t.components:
+                        assert k in C.BY_KEY or k in C.DERIVED, (st.id, k)
+
+
+def test_functional_classes_are_cited(pack):
+    rule = pack.ingredient_list
+    if rule is None or not rule.functional_classes:
+        return
+    assert rule.functional_classes_citation and len(rule.functional_classes_citation) > 5
+    for key, name in rule.functional_classes.items():
+        assert key == key.lower() and name.one and name.many, key
+
+
+def test_energy_methods_not_computed_are_cited_and_not_offered(pack):
+    for method, why in pack.panel.energy_methods_not_computed.items():
+        assert why.citation and why.confidence in CONF and len(why.why) > 10
+        assert method not in pack.panel.energy_factor_sets_allowed and method != pack.panel.energy_factor_set
+
+
+def test_claims_are_cited_and_testable(pack):
+    for cl in pack.claims:
+        assert cl.citation.strip() and cl.confidence in CONF, cl.id
+        assert cl.conditions or cl.alternatives or cl.fails_with_ingredient_kinds, cl.id
