@@ -349,3 +349,17 @@ def test_additives_named_by_functional_class(lab, market, expected):
     ]
     p = lab.formula("fc", [{"ingredient": i, "amount": g} for i, g in batch])
     assert lab.assess(p, pack=PACKS[market]).ingredient_list["text"] == expected
+
+
+def test_canada_sugars_based_ingredients_grouped(lab):
+    # FDR B.01.008.3(1)-(3): sugars-based ingredients in parentheses after "Sugars", which stands by their total
+    # weight (here 12 g + 10 g = 22 g, ahead of the 20 g oats), each in lower case, heaviest first.
+    batch = [
+        (lab.add("flour", {"starch": 70, "water": 30}, name="Wheat flour"), "58 g"),
+        (lab.add("oats", {"starch": 60, "water": 40}, name="Oats"), "20 g"),
+        (lab.add("syrup", {"sugars": 80, "water": 20}, name="Glucose syrup", kinds=["sugar"]), "12 g"),
+        (lab.add("sug", {"sugars": 100, "added_sugars": 100}, name="Sugar", kinds=["sugar"]), "10 g"),
+    ]
+    p = lab.formula("sg", [{"ingredient": i, "amount": g} for i, g in batch])
+    text = lab.assess(p, pack=PACKS["ca"]).ingredient_list["text"]
+    assert text == "Ingredients: Wheat flour, Sugars (glucose syrup, sugar), Oats."

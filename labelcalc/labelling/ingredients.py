@@ -104,6 +104,7 @@ def ingredient_list(comp: Composition, pack: RulePack) -> dict | None:
                         "allergen_names": names_of(ing),
                         "is_water": "water" in ing.kinds or ing.id == "water",
                         "functional_class": ing.functional_class,
+                        "kinds": list(ing.kinds),
                         "components": [
                             {"name": n, "allergen": False, "components": []} for n in (ing.sub_ingredients or [])
                         ],
@@ -236,12 +237,27 @@ def allergen_name(it: dict, emphasis: str, bold=str.upper) -> str:
 
 def _by_class(items: list[dict], rule, emphasis: str) -> list[dict]:
     """Additives named by the market's functional class: those of one class are grouped where the first
-    (heaviest) of them stands, e.g. 'Sweeteners: aspartame, acesulfame K' (style of the pack's rule)."""
-    if not rule.functional_classes:
+    (heaviest) of them stands, e.g. 'Sweeteners: aspartame, acesulfame K' (style of the pack's rule); and
+    ingredients of a grouped kind listed under one heading placed by their total weight, e.g. 'Sugars (sugar,
+    glucose syrup)'. Grouping is done by hand here: it is the market's wording rule, no library does it."""
+    if not rule.functional_classes and not rule.kind_groups:
         return items
     out: list[dict] = []
     groups: dict[str, dict] = {}
+    kind_heads: dict[str, dict] = {}
     for it in items:
+        kind = next((k for k in it.get("kinds", []) if k in rule.kind_groups), None)
+        if kind is not None:  # listed under the kind's heading, placed by the total weight of its members
+            head = rule.kind_groups[kind]
+            g = kind_heads.get(head.many)
+            if g is None:
+                g = kind_heads[head.many] = {**it, "name": head.many, "members": [], "components": []}
+                g["grams_per_100g"] = 0.0
+                g["allergen"] = False
+                out.append(g)
+            g["grams_per_100g"] += it["grams_per_100g"]
+            g["members"].append(allergen_name({**it, "name": it["name"].lower()}, emphasis, bold=str.upper))
+            continue
         cls = rule.functional_classes.get(it.get("functional_class") or "")
         if cls is None:
             comps = it["components"]
@@ -262,6 +278,10 @@ def _by_class(items: list[dict], rule, emphasis: str) -> list[dict]:
             g["name"] = f"{joined} ({label})"
         else:
             g["name"] = f"{label}: {joined}"
+    for g in kind_heads.values():
+        g["name"] = f"{g['name']} ({', '.join(g.pop('members'))})"
+    if kind_heads:
+        out.sort(key=lambda x: -x["grams_per_100g"])
     return out
 
 

@@ -220,6 +220,12 @@ class IngredientListRule(Strict):
         "(aspartame, acesulfame K)'; name_then_class: 'sodium benzoate (preservative)'",
     )
     functional_classes_citation: str | None = None
+    kind_groups: dict[str, ClassName] = Field(
+        default_factory=dict,
+        description="ingredient kind -> a heading under which all such ingredients are listed together, in "
+        "parentheses and lower case, placed by their total weight (e.g. Canada's 'Sugars (...)')",
+    )
+    kind_groups_citation: str | None = None
     order: Literal["weight_at_use"] = "weight_at_use"
     water: Literal["as_used", "finished_product"] = Field(
         "as_used", description="finished_product: added water by its weight in the finished product"
