@@ -19,7 +19,7 @@ ingredients:
     label_name: Tuber
     source: test data (invented round numbers)
     assumed_zero: [{components: [proximates, lipids, carbohydrates, polyols, fibre, minerals, vitamins, others], reason: "test fixture: every component not given is none"}]
-    per_100g: {water: 80, protein: 2, fat: 0.1, sugars: 1, starch: 15, fibre_soluble: 0.5, fibre_insoluble: 1.4}
+    per_100g: {water: 80, protein: 2, nitrogen: 0.32, fat: 0.1, sugars: 1, starch: 15, fibre_soluble: 0.5, fibre_insoluble: 1.4}
     allergens: []
   oil:
     label_name: Sunflower oil
@@ -51,7 +51,7 @@ ingredients:
     label_name: Wheat flour
     source: test data
     assumed_zero: [{components: [proximates, lipids, carbohydrates, polyols, fibre, minerals, vitamins, others], reason: "test fixture: every component not given is none"}]
-    per_100g: {water: 14, protein: 10, fat: 1, sugars: 1, starch: 70, fibre_soluble: 1, fibre_insoluble: 2, ash: 1, sodium: 2}
+    per_100g: {water: 14, protein: 10, nitrogen: 1.6, fat: 1, sugars: 1, starch: 70, fibre_soluble: 1, fibre_insoluble: 2, ash: 1, sodium: 2}
     allergens: [wheat]
   sugar:
     label_name: Sugar
@@ -86,7 +86,7 @@ ingredients:
   herb:
     label_name: Herb
     source: test data; vitamin K deliberately unknown
-    per_100g: {water: 10, protein: 20, fat: 5, sugars: 5, starch: 20, fibre_soluble: 10, fibre_insoluble: 20, ash: 10,
+    per_100g: {water: 10, protein: 20, nitrogen: 3.2, fat: 5, sugars: 5, starch: 20, fibre_soluble: 10, fibre_insoluble: 20, ash: 10,
                sodium: 50, saturated_fa: 1, trans_fa: 0, monounsaturated_fa: 1, polyunsaturated_fa: 2, cholesterol: 0,
                nonabsorbed_lipid: 0, partial_lipid: 0, added_sugars: 0, sorbitol: 0, mannitol: 0, xylitol: 0, maltitol: 0,
                isomalt: 0, lactitol: 0, erythritol: 0, glycerol: 0, organic_acids: 0, ethanol: 0, potassium: 100,

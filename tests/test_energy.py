@@ -40,9 +40,12 @@ ingredients:
 
 def test_eu_annex_xiv_vector_a(write, tmp_path):
     # Reg. (EU) No 1169/2011 Annex XIV factors applied to fat 10, carbohydrate 60, protein 8, fibre 3 (g/100 g):
-    # 10x37 + 60x17 + 8x17 + 3x8 = 1550 kJ; 10x9 + 60x4 + 8x4 + 3x2 = 368 kcal (Annex XIV arithmetic)
+    # 10x37 + 60x17 + 8x17 + 3x8 = 1550 kJ; 10x9 + 60x4 + 8x4 + 3x2 = 368 kcal (Annex XIV arithmetic);
+    # protein 8 g is nitrogen 1.28 g x 6.25 (Annex I point 10)
     c = _lib_with(
-        write, tmp_path, "{fat: 10, sugars: 20, starch: 40, protein: 8, fibre_soluble: 1, fibre_insoluble: 2}"
+        write,
+        tmp_path,
+        "{fat: 10, sugars: 20, starch: 40, protein: 8, nitrogen: 1.28, fibre_soluble: 1, fibre_insoluble: 2}",
     )
     e = energy_of(c, load_factor_set("eu_1169_2011_annex_xiv"))
     assert e.kj == pytest.approx(1550)
@@ -57,7 +60,7 @@ def test_eu_annex_xiv_vector_b_salatrim_and_polyols(write, tmp_path):
     c = _lib_with(
         write,
         tmp_path,
-        "{fat: 5, partial_lipid: 15, sugars: 18, maltitol: 7, erythritol: 5, protein: 5}",
+        "{fat: 5, partial_lipid: 15, sugars: 18, maltitol: 7, erythritol: 5, protein: 5, nitrogen: 0.8}",
         "    lipid_energy: {kj_per_g: 25, kcal_per_g: 6, kind: salatrim, source: test}",
     )
     e = energy_of(c, load_factor_set("eu_1169_2011_annex_xiv"))
@@ -86,7 +89,7 @@ def test_us_method_c_formula(write, tmp_path):
     c = _lib_with(
         write,
         tmp_path,
-        "{protein: 5, fat: 10, sugars: 20, starch: 30, fibre_soluble: 4, fibre_insoluble: 6, maltitol: 10}",
+        "{protein: 5, nitrogen: 0.8, fat: 10, sugars: 20, starch: 30, fibre_soluble: 4, fibre_insoluble: 6, maltitol: 10}",
     )
     e = energy_of(c, load_factor_set("us_101_9_method_c"))
     assert e.kcal == pytest.approx(4 * 5 + 4 * 50 + 9 * 10 + 2 * 4 + 0 * 6 + 2.1 * 10)

@@ -80,6 +80,10 @@ class FactorSetHeader(BaseModel):
     kcal_from_kj: float | None = Field(None, gt=0, description="kcal = kJ / this, where the law says so")
     kj_from_kcal: float | None = Field(None, gt=0, description="kJ = kcal x this, where the law says so")
     ingredient_specific: bool = Field(False, description="use each ingredient's own Atwater factors (US method A)")
+    protein_from_nitrogen: float | None = Field(
+        None, gt=0, description="the law defines protein as total nitrogen x this factor: energy uses that protein"
+    )
+    protein_from_nitrogen_citation: str | None = None
     notes: str | None = None
 
 
@@ -306,6 +310,20 @@ class EnergyTable:
         return EnergyResult(self.factor_set, kj, kcal, by_kj, by_kcal, unknown_because, reviews)
 
 
+def energy_inputs(values: np.ndarray, unknown: np.ndarray, fs: FactorSet) -> tuple[np.ndarray, np.ndarray]:
+    """The composition as the factor set's law reads it (rows x :data:`COLUMNS`): where the law defines
+    protein as total nitrogen x a factor (EU Annex I point 10: N x 6.25), protein is recomputed from
+    nitrogen (unknown where nitrogen is).  Other factor sets take the composition as it is."""
+    k = fs.factor_set.protein_from_nitrogen
+    if not k:
+        return values, unknown
+    values, unknown = values.copy(), unknown.copy()
+    p, n = COL["protein"], COL["nitrogen"]
+    values[:, p] = values[:, n] * k
+    unknown[:, p] = unknown[:, n]
+    return values, unknown
+
+
 def energy_table(values: np.ndarray, unknown: np.ndarray, fs: FactorSet) -> EnergyTable:
     """Energy of every row of ``values`` (rows x :data:`COLUMNS`, per 100 g; NaN where ``unknown``).
 
@@ -314,8 +332,8 @@ def energy_table(values: np.ndarray, unknown: np.ndarray, fs: FactorSet) -> Ener
     This is the one energy computation: :func:`energy_of` is its single-composition form.
     """
     groups, gkj, gkcal, relevant, review_cols = _prepare(fs)
-    vals = np.nan_to_num(np.atleast_2d(values))
-    unk = np.atleast_2d(unknown)
+    vals, unk = energy_inputs(np.atleast_2d(values), np.atleast_2d(unknown), fs)
+    vals = np.nan_to_num(vals)
     specific = fs.factor_set.ingredient_specific
     if specific:  # general factors apply only to what specific factors do not cover
         vals = vals.copy()
@@ -348,21 +366,12 @@ def energy_of(comp: Composition, fs: FactorSet) -> EnergyResult:
 
 
 def energy_by_line(comp: Composition, fs: FactorSet) -> list[tuple[str, float | None, float | None]]:
-    """Energy contributed by each batch line and processing step [kJ, kcal per 100 g]."""
-    kj_v, kcal_v = energy_vectors(fs)
+    """Energy contributed by each batch line and processing step [kJ, kcal per 100 g] (the contributions
+    through :func:`energy_table`)."""
     labels, rows = comp.contributions
-    if fs.factor_set.ingredient_specific:
-        rows = rows.copy()
-        for k in ATWATER_REPLACED:
-            rows[:, COL[k]] -= np.nan_to_num(rows[:, COL[f"atwater_covered_{k}"]])
-        kcal_v[COL["specific_atwater_kcal"]] = 1.0
-        if fs.factor_set.kj_from_kcal:
-            kj_v[COL["specific_atwater_kcal"]] = fs.factor_set.kj_from_kcal
-    out = []
-    for lab, row in zip(labels, rows):
-        used = (kj_v != 0) | (kcal_v != 0)
-        if np.isnan(row[used]).any():
-            out.append((lab, None, None))
-        else:
-            out.append((lab, float(np.dot(np.nan_to_num(row), kj_v)), float(np.dot(np.nan_to_num(row), kcal_v))))
-    return out
+    t = energy_table(rows, np.isnan(rows), fs)
+    return [(lab, _f(kj), _f(kcal)) for lab, kj, kcal in zip(labels, t.kj, t.kcal)]
+
+
+def _f(x: float) -> float | None:
+    return None if np.isnan(x) else float(x)

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from labelcalc.formulation.composition import COL
-from labelcalc.formulation.energy import energy_vectors
+from labelcalc.formulation.energy import energy_inputs, energy_vectors
 from labelcalc.labelling.model import Assessment, Declaration
 
 
@@ -45,8 +45,10 @@ def _energy_check(decl: Declaration, basis: str) -> list[Check]:
     out = []
     pack = decl.pack
     comp = decl.composition
-    kj_v, kcal_v = energy_vectors(decl.declared_energy.factor_set)
-    vals = np.nan_to_num(comp.per_100g)
+    fs = decl.declared_energy.factor_set
+    kj_v, kcal_v = energy_vectors(fs)
+    law_vals, _ = energy_inputs(comp.per_100g[None, :], comp.unknown[None, :], fs)  # as the law reads them
+    vals = np.nan_to_num(law_vals[0])
     energy_rows = {pack.nutrients[r.nutrient].energy: r for r in decl.shown_rows if pack.nutrients[r.nutrient].energy}
     top = [r for r in decl.shown_rows if r.indent == 0 and not pack.nutrients[r.nutrient].energy and r.unit == "g"]
     for unit, er in energy_rows.items():
@@ -60,8 +62,10 @@ def _energy_check(decl: Declaration, basis: str) -> list[Check]:
         for r in top:
             nd = pack.nutrients[r.nutrient]
             comps = [c for k in (nd.sum or {}) for c in _expand(k)]
+            if fs.factor_set.protein_from_nitrogen:  # protein defined from nitrogen carries the protein energy
+                comps = ["protein" if c == "nitrogen" else c for c in comps]
             cols = [COL[c] for c in comps if c in COL]
-            grams = float(vals[cols].sum())
+            grams = r.value_per_100g or 0.0
             if grams <= 0:
                 continue
             factor = float(np.dot(vals[cols], vec[cols])) / grams

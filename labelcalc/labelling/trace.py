@@ -16,8 +16,8 @@ from __future__ import annotations
 import numpy as np
 
 from labelcalc import components as C
-from labelcalc.formulation.composition import ATWATER_REPLACED, COL
-from labelcalc.formulation.energy import FactorSet, energy_vectors
+from labelcalc.formulation.composition import COL
+from labelcalc.formulation.energy import FactorSet, energy_table
 from labelcalc.formulation.leaves import LeafLine, leaf_lines
 from labelcalc.labelling.model import Declaration
 from labelcalc.labelling.rounding import RoundingRule, plain_label
@@ -61,25 +61,6 @@ def band_text(rule: RoundingRule, band_index: int) -> str:
     return f"{rng}: {act} ({tie})"
 
 
-def _energy_vector(fs: FactorSet, unit: str) -> np.ndarray:
-    kj, kcal = energy_vectors(fs)
-    vec = (kcal if unit == "kcal" else kj).copy()
-    if fs.factor_set.ingredient_specific:  # specific Atwater energy replaces the general terms it covers
-        vec[COL["specific_atwater_kcal"]] = 1.0 if unit == "kcal" else (fs.factor_set.kj_from_kcal or np.nan)
-    return vec
-
-
-def _line_energy(line: LeafLine, vec: np.ndarray, specific: bool) -> float | None:
-    row = line.contribution.copy()
-    if specific:
-        for k in ATWATER_REPLACED:
-            row[COL[k]] -= np.nan_to_num(row[COL[f"atwater_covered_{k}"]])
-    used = vec != 0
-    if np.isnan(row[used]).any():
-        return None
-    return float(np.dot(np.nan_to_num(row), np.nan_to_num(vec)))
-
-
 def _factors(fs: FactorSet, unit: str) -> list[dict]:
     out = []
     for f in fs.factors:
@@ -91,6 +72,16 @@ def _factors(fs: FactorSet, unit: str) -> list[dict]:
                 "unit": f"{unit}/g",
                 "citation": f.citation,
                 "confidence": f.confidence,
+            }
+        )
+    if fs.factor_set.protein_from_nitrogen:
+        out.append(
+            {
+                "components": ["protein = nitrogen"],
+                "factor": fs.factor_set.protein_from_nitrogen,
+                "unit": "g protein/g nitrogen",
+                "citation": fs.factor_set.protein_from_nitrogen_citation or "",
+                "confidence": fs.factor_set.confidence,
             }
         )
     if unit == "kcal" and fs.factor_set.kcal_from_kj:
@@ -123,6 +114,7 @@ def trace_of(d: Declaration) -> dict:
     lines = leaf_lines(comp)
     fs = d.declared_energy.factor_set
     rows = []
+    energy_rows = None  # the leaf lines through the declared factor set, once
     for r in d.shown_rows:
         nd = pack.nutrients[r.nutrient]
         prow = next(x for x in pack.rows if x.nutrient == r.nutrient)
@@ -157,12 +149,15 @@ def trace_of(d: Declaration) -> dict:
             entry["columns"][b] = col
         if nd.energy:
             unit = "kcal" if nd.energy == "kcal" else "kJ"
-            vec = _energy_vector(fs, unit)
             entry["definition"] = f"energy by factor set '{fs.id}' ({fs.factor_set.title})"
             entry["factors"] = _factors(fs, unit)
-            for ln in lines:
-                e = _line_energy(ln, vec, fs.factor_set.ingredient_specific)
-                entry["lines"].append(_line(ln, e, unit, sources=_sources(ln, _energy_components(fs))))
+            if energy_rows is None:
+                rows_ = np.vstack([ln.contribution for ln in lines])
+                energy_rows = energy_table(rows_, np.isnan(rows_), fs)
+            per_line = energy_rows.kcal if unit == "kcal" else energy_rows.kj
+            for ln, e in zip(lines, per_line):
+                amount = None if np.isnan(e) else float(e)
+                entry["lines"].append(_line(ln, amount, unit, sources=_sources(ln, _energy_components(fs))))
         else:
             parts = [(k, f) for k, f in (nd.sum or {}).items()]
             entry["definition"] = " + ".join(k if f == 1 else f"{f:g} x {k}" for k, f in parts)
