@@ -57,10 +57,18 @@ def yaml_files(folder: Path) -> list[Path]:
 
 def classify(path: Path) -> CatalogueEntry:
     """Parse one file and say what it is; never raises for bad content."""
+    return _classify(path)[0]
+
+
+def _classify(path: Path) -> tuple[CatalogueEntry, object]:
     try:
         data = load_yaml(path, with_lines=False).data
     except InputError as exc:
-        return CatalogueEntry(path, "error", problems=exc.problems)
+        return CatalogueEntry(path, "error", problems=exc.problems), None
+    return _kind_of(path, data), data
+
+
+def _kind_of(path: Path, data) -> CatalogueEntry:
     shown = display_path(path) or str(path)
     if not isinstance(data, dict) or not data:
         what = "empty" if data is None else "not a mapping"
@@ -129,8 +137,9 @@ class FormulaIndex:
     several files to all of them; ``products`` lists product files (duplicates included, so each can be
     reported); ``entries`` is every file with its kind, for accounting."""
 
-    def __init__(self, folders: list[Path]):
+    def __init__(self, folders: list[Path], *, keep_products: bool = False):
         self.entries: list[CatalogueEntry] = []
+        self._parsed: dict[Path, object] = {}  # product files' parsed data, kept for one later load (ranges)
         self.paths: dict[str, Path] = {}
         self.kinds: dict[str, str] = {}
         self.duplicates: dict[str, list[Path]] = {}
@@ -142,8 +151,10 @@ class FormulaIndex:
                 if key in seen:
                     continue
                 seen.add(key)
-                e = classify(f)
+                e, data = _classify(f)
                 self.entries.append(e)
+                if keep_products and e.kind == "product":
+                    self._parsed[f] = data
                 if e.id is not None:
                     by_id.setdefault(e.id, []).append(e)
         for ident, es in by_id.items():
@@ -153,6 +164,14 @@ class FormulaIndex:
                 self.paths[ident] = es[0].path
                 self.kinds[ident] = es[0].kind
         self.products: list[Path] = [e.path for e in self.entries if e.kind == "product"]
+
+    def take_parsed(self, path: Path):
+        """The parsed data of a product file read while classifying (once; None if not kept)."""
+        return self._parsed.pop(path, None)
+
+    def forget_parsed(self) -> None:
+        """Drop kept parsed data (when the products are loaded elsewhere, e.g. in worker processes)."""
+        self._parsed.clear()
 
     def lookup_only(self) -> FormulaIndex:
         """A copy for finding sub-formulas by id only (no file list), cheap to send to worker processes."""

@@ -19,7 +19,7 @@ from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
 
-from labelcalc.errors import InputError, Problem, ProblemList
+from labelcalc.errors import InputError, Problem, ProblemList, display_path
 from labelcalc.intake.catalogue import FormulaIndex
 from labelcalc.intake.library import Ingredient, Library
 from labelcalc.intake.quantities import Number, Quantity, parse_quantity
@@ -392,8 +392,10 @@ def load_formula(
         return cache[key]
     index = _index or FormulaIndex([p.parent.resolve(), *[Path(s).resolve() for s in (search or [])]])
     if fast:  # parse once without line tracking; on any problem parse again to report lines
+        kept = index.take_parsed(p)
         try:
-            formula = _build(load_yaml(p, with_lines=False), library, index, _stack, cache)
+            loaded = load_yaml(p, with_lines=False) if kept is None else LoadedYaml(kept, {}, display_path(p) or str(p))
+            formula = _build(loaded, library, index, _stack, cache)
         except InputError:
             formula = _build(load_yaml(p), library, index, _stack, cache)
     else:

@@ -326,4 +326,4 @@ def _product(pid, rows, prod_row, file) -> SheetProduct:
 
 
 def index_for(source: Path) -> FormulaIndex:
-    return FormulaIndex([source if source.is_dir() else source.parent])
+    return FormulaIndex([source if source.is_dir() else source.parent], keep_products=source.is_dir())

@@ -69,7 +69,8 @@ def _walk(node: yaml.Node, path: Path_, lines: dict[Path_, int]) -> None:
 
 
 def _check_nodes(root: yaml.Node, file: str) -> None:
-    """Refuse alias bombs, duplicate keys and non-finite numbers; every message names a line."""
+    """Refuse alias bombs (and, before anything is constructed, duplicate keys and non-finite numbers);
+    every message names a line."""
     sizes: dict[int, int] = {}
     aliases = 0
     seen: set[int] = set()
@@ -144,6 +145,47 @@ def _check_nodes(root: yaml.Node, file: str) -> None:
             )
 
 
+class _CheckedLoader(_Loader):  # type: ignore[misc,valid-type]
+    """The safe loader, refusing a key given twice and a non-finite float as it constructs them (one pass)."""
+
+    file = ""
+
+    def construct_mapping(self, node, deep=False):
+        if isinstance(node, yaml.MappingNode):
+            first: dict[str, int] = {}
+            for k, _ in node.value:
+                if isinstance(k, yaml.ScalarNode) and k.value != "<<":
+                    line = k.start_mark.line + 1
+                    if k.value in first:
+                        raise InputError(
+                            Problem(
+                                f"key '{k.value}' is given twice (lines {first[k.value]} and {line})",
+                                file=self.file,
+                                line=line,
+                                field=str(k.value),
+                                fix="keep one of them; YAML would silently use only the last",
+                            )
+                        )
+                    first[k.value] = line
+        return super().construct_mapping(node, deep=deep)
+
+    def construct_finite_float(self, node):
+        value = self.construct_yaml_float(node)
+        if not math.isfinite(value):
+            raise InputError(
+                Problem(
+                    f"'{node.value}' is not a finite number",
+                    file=self.file,
+                    line=node.start_mark.line + 1,
+                    fix="give a finite number (.inf, .nan and numbers beyond 1e308 are refused)",
+                )
+            )
+        return value
+
+
+_CheckedLoader.add_constructor("tag:yaml.org,2002:float", _CheckedLoader.construct_finite_float)
+
+
 def _finite_float(value: str) -> bool:
     """Whether a scalar that YAML resolves as a float is finite (as PyYAML's constructor reads it)."""
     v = value.replace("_", "").lower()
@@ -168,10 +210,11 @@ def parse_yaml_text(text: str, file: str, *, with_lines: bool = True) -> LoadedY
             )
         )
     try:
-        loader = _Loader(text)  # composed once; checked; then constructed from the same node graph
+        loader = _CheckedLoader(text)  # composed once, then constructed (with its checks) from the same nodes
+        loader.file = file
         try:
             node = loader.get_single_node()
-            if node is not None:
+            if node is not None and "*" in text:  # an alias needs '*': only then can the document multiply
                 _check_nodes(node, file)
             data = loader.construct_document(node) if node is not None else None
         finally:

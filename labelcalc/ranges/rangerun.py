@@ -325,6 +325,8 @@ def run_range(
     items, inventory = enumerate_products(source, index)
     total = len(items)
     lookup = index.lookup_only()
+    if jobs > 1:
+        index.forget_parsed()  # workers parse their own share
     if jobs > 1:  # fewer, larger chunks: each carries its share of the table operations
         chunk_size = max(chunk_size, -(-total // (jobs * 4)))
     chunks = [items[i : i + chunk_size] for i in range(0, total, chunk_size)] or [[]]
