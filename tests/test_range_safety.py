@@ -270,3 +270,57 @@ def test_range_sheet_panels_are_written(tmp_path):
     )
     assert res.exit_code == 0, res.output
     assert (out / "panels" / "sheet_p.eu.pdf").exists()
+
+
+def test_xlsx_products_listed_twice_and_extra_cells_are_refused(tmp_path):
+    import openpyxl
+
+    wb = openpyxl.Workbook()
+    lines = wb.active
+    lines.title = "lines"
+    lines.append(["product_id", "ingredient", "amount"])
+    lines.append(["x1", "flour", "100 g"])
+    lines.append(["x2", "flour", "100 g", "stray"])
+    lines.append(["x3", "flour", "100 g"])
+    products = wb.create_sheet("products")
+    products.append(["product_id", "product_name", "category", "serving_g"])
+    products.append(["x1", "X one", "snacks", 30])
+    products.append(["x1", "X one again", "snacks", 30])
+    products.append(["x3", "X three", "snacks", 30])
+    products.append(["x4", "X four (no lines)", "snacks", 30])
+    path = tmp_path / "range.xlsx"
+    wb.save(path)
+    out = tmp_path / "out"
+    res = runner.invoke(app, ["range", str(path), "-l", str(LIB), "-m", "eu", "-o", str(out), "-q", "--no-register"])
+    assert res.exit_code == 1, res.output
+    errors = {e["product_id"]: e["message"] for e in csv.DictReader((out / "errors.csv").open(encoding="utf-8"))}
+    assert "listed twice in the products sheet (rows 2 and 3)" in errors["x1"]
+    assert "1 cell(s) beyond the last column or under no heading (stray)" in errors["x2"]
+    assert "no batch line" in errors["x4"]
+    summary = {r["product_id"] for r in csv.DictReader((out / "summary.csv").open(encoding="utf-8"))}
+    assert summary == {"x3"}
+
+
+def test_broken_pack_of_another_market_does_not_block_a_range(tmp_path):
+    rules = _rules_copy(tmp_path)
+    us = next((rules / "markets").glob("us_*.yaml"))
+    us.write_text(us.read_text(encoding="utf-8").replace("rows:", "rowz:", 1), encoding="utf-8")
+    out = tmp_path / "out"
+    res = runner.invoke(
+        app,
+        [
+            "range",
+            str(GOOD),
+            "-l",
+            str(LIB),
+            "-m",
+            "eu",
+            "-o",
+            str(out),
+            "-q",
+            "--no-register",
+            "--rules",
+            str(rules / "markets"),
+        ],
+    )
+    assert res.exit_code == 0, res.output

@@ -147,9 +147,13 @@ DUPLICATE = "__duplicate__"  # a product given twice
 
 def _row(header: list[str], values, file: str, line: int) -> dict:
     r = {h: ("" if v is None else str(v).strip()) for h, v in zip(header, values) if h}
-    extra = [str(v).strip() for v in list(values)[len(header) :] if v is not None and str(v).strip()]
+    extra = [
+        str(v).strip()
+        for j, v in enumerate(values)
+        if (j >= len(header) or not header[j]) and v is not None and str(v).strip()
+    ]
     if extra:
-        r[EXTRA] = f"{len(extra)} cell(s) beyond the last column ({', '.join(extra[:3])})"
+        r[EXTRA] = f"{len(extra)} cell(s) beyond the last column or under no heading ({', '.join(extra[:3])})"
     return r
 
 
