@@ -74,6 +74,9 @@ def friendly(fn):
             raise typer.Exit(1) from None
         except (typer.Exit, typer.Abort, SystemExit):
             raise
+        except OSError as exc:  # a file that cannot be read or written: the environment, not a bug
+            typer.echo(f"error: {_os_problem(exc)}", err=True)
+            raise typer.Exit(2) from None
         except Exception as exc:  # noqa: BLE001 - never a traceback: one line and a crash report
             from labelcalc.ranges.publish import write_crash_report
 
@@ -830,6 +833,9 @@ def range_cmd(
     except LabelError as exc:
         typer.echo(f"error: {exc}", err=True)
         raise typer.Exit(2) from None
+    except OSError as exc:  # an output folder or register that cannot be written: nothing was changed
+        typer.echo(f"error: {_os_problem(exc)}", err=True)
+        raise typer.Exit(2) from None
     except Exception as exc:  # noqa: BLE001 - never a traceback: one line and a crash report
         report = _crash_report_path(out)
         write_crash_report(
@@ -884,6 +890,13 @@ def range_cmd(
         raise typer.Exit(3)
     if result.errors:
         raise typer.Exit(1)
+
+
+def _os_problem(exc: OSError) -> str:
+    where = f"{exc.filename}: " if exc.filename else ""
+    return (
+        f"{where}cannot read or write: {exc.strerror or exc} — check the path and its permissions (nothing was changed)"
+    )
 
 
 def _crash_report_path(out: Path | None) -> Path:

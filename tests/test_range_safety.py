@@ -104,7 +104,7 @@ def test_outputs_appear_together_or_not_at_all(tmp_path, monkeypatch):
 
     def dies_on_errors_csv(path, rows, columns=None):
         if path.name == "errors.csv":
-            raise OSError("disk full (simulated)")
+            raise RuntimeError("writer fault (simulated)")
         return real(path, rows, columns)
 
     monkeypatch.setattr(publish, "write_csv", dies_on_errors_csv)
@@ -324,3 +324,11 @@ def test_broken_pack_of_another_market_does_not_block_a_range(tmp_path):
         ],
     )
     assert res.exit_code == 0, res.output
+
+
+def test_an_output_folder_that_cannot_be_written_is_a_clear_message(tmp_path):
+    src = _src(tmp_path)
+    blocker = tmp_path / "a_file"
+    blocker.write_text("not a folder", encoding="utf-8")
+    res = _range(src, blocker / "out")
+    assert res.exit_code == 2 and "cannot read or write" in res.output and "internal error" not in res.output
