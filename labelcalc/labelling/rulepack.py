@@ -480,4 +480,19 @@ def check_formula_against_packs(f, packs: list[RulePack]) -> None:
                 f"did you mean {', '.join(near)}?" if near else "see 'labelcalc rules show MARKET' for the categories"
             ),
         )
+    if problems.problems:
+        _add_lines(problems.problems, f.file)
     problems.raise_if_any(InputError)
+
+
+def _add_lines(problems: list[Problem], file: str) -> None:
+    """Lines of fields in a formula file (read again only when there is a problem to report)."""
+    if not file.lower().endswith((".yaml", ".yml")) or not Path(file).is_file():
+        return
+    try:
+        loaded = load_yaml(file)
+    except (InputError, OSError):
+        return
+    for p in problems:
+        if p.field and p.line is None:
+            p.line = loaded.line_of(tuple(p.field.split(".")))
