@@ -332,3 +332,14 @@ def test_an_output_folder_that_cannot_be_written_is_a_clear_message(tmp_path):
     blocker.write_text("not a folder", encoding="utf-8")
     res = _range(src, blocker / "out")
     assert res.exit_code == 2 and "cannot read or write" in res.output and "internal error" not in res.output
+
+
+def test_a_register_from_before_schema_versions_is_upgraded(tmp_path):
+    path = tmp_path / "old.sqlite"
+    db = sqlite3.connect(path)
+    db.executescript(register_mod.SCHEMA)  # the same table, written before the file carried a version
+    db.close()
+    Register(path).close()
+    db = sqlite3.connect(path)
+    assert db.execute("PRAGMA user_version").fetchone()[0] == SCHEMA_VERSION
+    db.close()
