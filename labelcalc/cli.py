@@ -809,7 +809,14 @@ def range_cmd(
         progress, stop = _progress(quiet)
         try:
             result = run_range(
-                source, lib_path, markets, rules, jobs=jobs, progress=progress, with_labels=not no_register
+                source,
+                lib_path,
+                markets,
+                rules,
+                jobs=jobs,
+                progress=progress,
+                with_labels=not no_register,
+                exclude=[out] + ([register.parent] if register else []),
             )
         finally:
             stop()

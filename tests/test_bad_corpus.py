@@ -77,7 +77,13 @@ def test_range_over_every_bad_class_and_good_products(tmp_path):
     # every YAML file under the source is accounted for, whatever its extension's case
     on_disk = sorted(str(p.relative_to(tmp_path)) for p in src.rglob("*") if p.suffix.lower() in (".yaml", ".yml"))
     listed = sorted(str(Path(f["file"]).resolve().relative_to(tmp_path.resolve())) for f in files)
-    assert listed == on_disk
+    everything = sorted(str(p.relative_to(tmp_path)) for p in src.rglob("*") if p.is_file())
+    assert listed == everything  # the sheets (CSV) are listed too, as not read
+    assert (
+        sorted(str(Path(f["file"]).resolve().relative_to(tmp_path.resolve())) for f in files if f["kind"] != "not read")
+        == on_disk
+    )
+    assert {f["outcome"] for f in files if f["kind"] == "not read"} == {"not read: not a YAML file"}
     outcome = {Path(f["file"]).name: f["outcome"] for f in files}
     # every good product labelled, the quirky-but-valid ones included
     for name in ("plain.yaml", "quoted_key.yaml", "anchored.yaml", "late_id.yaml", "upper.YAML", "fried.yaml"):

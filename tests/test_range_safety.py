@@ -343,3 +343,13 @@ def test_a_register_from_before_schema_versions_is_upgraded(tmp_path):
     db = sqlite3.connect(path)
     assert db.execute("PRAGMA user_version").fetchone()[0] == SCHEMA_VERSION
     db.close()
+
+
+def test_an_output_folder_inside_the_source_is_not_read_as_input(tmp_path):
+    src = _src(tmp_path)
+    out = src / "out"
+    assert _range(src, out, "--no-register").exit_code == 0
+    first = _outputs(out)
+    assert _range(src, out, "--no-register").exit_code == 0
+    assert _outputs(out) == first  # the first run's outputs did not become the second run's input
+    assert "out/" not in (out / "files.csv").read_text(encoding="utf-8")

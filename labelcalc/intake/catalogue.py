@@ -50,6 +50,18 @@ class CatalogueEntry:
         return display_path(self.path) or str(self.path)
 
 
+def other_files(folder: Path) -> list[Path]:
+    """Files under ``folder`` that are not YAML (and not hidden, nor inside a hidden folder), in path order:
+    a range lists them as not read, so a product saved as ``.yml~`` or ``.json`` is never silently missed."""
+    return sorted(
+        f
+        for f in folder.rglob("*")
+        if f.is_file()
+        and f.suffix.lower() not in YAML_SUFFIXES
+        and not any(part.startswith(".") for part in f.relative_to(folder).parts)
+    )
+
+
 def yaml_files(folder: Path) -> list[Path]:
     """Every YAML file under ``folder`` (any case of the extension), in path order."""
     return sorted(f for f in folder.rglob("*") if f.suffix.lower() in YAML_SUFFIXES and f.is_file())

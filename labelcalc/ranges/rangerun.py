@@ -16,7 +16,7 @@ from pathlib import Path
 
 from labelcalc.errors import InputError, LabelError, Problem, display_path
 from labelcalc.formulation.composition import compose, compose_many
-from labelcalc.intake.catalogue import classify
+from labelcalc.intake.catalogue import classify, other_files
 from labelcalc.intake.formula import Formula, FormulaIndex, build_formula, load_formula
 from labelcalc.intake.library import Library, load_library
 from labelcalc.intake.sources import index_for, sheet_products
@@ -140,9 +140,12 @@ def _crash(res: RangeResult, product: str, file: str, exc: BaseException) -> Non
 CRASH_REPORT = "crash-report.txt"
 
 
-def enumerate_products(source: Path, index: FormulaIndex | None = None) -> tuple[list, list[dict]]:
+def enumerate_products(
+    source: Path, index: FormulaIndex | None = None, exclude: list[Path] | None = None
+) -> tuple[list, list[dict]]:
     """The entries of a range source (product files, sheet products, known failures) and the inventory of its
-    files: every YAML file of a folder (or the sheet) with its kind and id."""
+    files: every file of a folder with its kind and id (files in ``exclude`` folders, such as the run's own
+    output folder, left out), or the products of a sheet."""
     if source.is_dir():
         index = index or FormulaIndex([source])
         items: list = []
@@ -161,6 +164,11 @@ def enumerate_products(source: Path, index: FormulaIndex | None = None) -> tuple
                 )
             elif e.kind == "product":
                 items.append(ProductFile(e.path, e.id or ""))
+        skip = [x.resolve() for x in exclude or []]
+        for f in other_files(source):
+            if any(f.resolve().is_relative_to(x) for x in skip):
+                continue
+            files.append({"file": display_path(f) or str(f), "kind": "not read", "id": ""})
         return items, files
     if source.suffix.lower() in (".csv", ".xlsx"):
         products, problems = sheet_products(source)
@@ -317,12 +325,14 @@ def run_range(
     progress=None,
     chunk_size: int = 200,
     with_labels: bool = True,
+    exclude: list[Path] | None = None,
 ) -> RangeResult:
-    """Run the whole range.  ``progress(done, total)`` is called as products finish."""
+    """Run the whole range.  ``progress(done, total)`` is called as products finish; ``exclude``: folders whose
+    files are not the range's (the output folder when it lies inside the source)."""
     library = load_library(library_path)
     packs = get_packs(markets, rules)
     index = index_for(source)
-    items, inventory = enumerate_products(source, index)
+    items, inventory = enumerate_products(source, index, exclude)
     total = len(items)
     lookup = index.lookup_only()
     if jobs > 1:
@@ -379,6 +389,8 @@ def _outcomes(inventory: list[dict], result: RangeResult) -> list[dict]:
             outcome = "labelled" if f["id"] in ok else "failed (see errors.csv)"
         elif kind == "subformula":
             outcome = "error (see errors.csv)" if f["id"] in failed_ids and f["file"] in failed_files else "sub-formula"
+        elif kind == "not read":
+            outcome = "not read: not a YAML file"
         else:
             outcome = f"not a product: {kind}"
         out.append({**f, "outcome": outcome})
