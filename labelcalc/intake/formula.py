@@ -588,9 +588,25 @@ def _build(loaded: LoadedYaml, library: Library, index: FormulaIndex, stack: tup
     return formula
 
 
+MAX_PACKAGE_G = 1e6  # one tonne: beyond any consumer package; keeps per-package figures in exact arithmetic
+
+
 def _check_serving(f: Formula, loaded: LoadedYaml, kind: str) -> None:
-    """A serving larger than the package (when both are known in grams) is refused."""
+    """A serving larger than the package (when both are known in grams), or a package beyond a tonne, is refused."""
     serving, net = f.serving_grams(), f.net_grams()
+    spc = f.header.servings_per_container
+    package = net if net is not None else (serving * spc if serving is not None and spc is not None else None)
+    for value, what, fld in ((serving, "serving", "serving.size"), (package, "package", "net_quantity")):
+        if value is not None and value > MAX_PACKAGE_G:
+            raise InputError(
+                Problem(
+                    f"a {what} of {value:,.0f} g is more than {MAX_PACKAGE_G:,.0f} g (a tonne)",
+                    file=loaded.file,
+                    line=loaded.line_of((kind, *fld.split("."))) or loaded.line_of((kind, "servings_per_container")),
+                    field=f"{kind}.{fld}" if what == "serving" or net is not None else f"{kind}.servings_per_container",
+                    fix="check the amount, its unit and servings_per_container",
+                )
+            )
     if serving is not None and net is not None and serving > net * (1 + 1e-9):
         raise InputError(
             Problem(
