@@ -110,7 +110,9 @@ def test_any_composition_gives_figures_or_one_clear_message(tmp_path, values):
     lib = tmp_path / "lib.yaml"
     body = ", ".join(f"{k}: {_yaml_number(v) if not isinstance(v, str) else v}" for k, v in values.items())
     lib.write_text(
-        f"ingredients:\n  thing:\n    label_name: Thing\n    source: invented test data\n    unlisted: zero\n"
+        f"ingredients:\n  thing:\n    label_name: Thing\n    source: invented test data\n"
+        f"    assumed_zero: [{{components: [proximates, lipids, carbohydrates, polyols, fibre, minerals, vitamins, others], "
+        f'reason: "test fixture: every component not given is none"}}]\n'
         f"    per_100g: {{{body}}}\n    allergens: []\n",
         encoding="utf-8",
     )
