@@ -6,7 +6,8 @@ A file is then one of:
 
 * a **formula**: top-level ``product:`` or ``subformula:`` with an ``id``;
 * a recognised **non-product**: an ingredient library (``ingredients:``), a price list (``prices:``), a lab
-  certificate (``certificate:``), a market rule pack (``pack:``) or an energy factor set (``factor_set:``);
+  certificate (``certificate:``), a market rule pack (``pack:``), an energy factor set (``factor_set:``) or a
+  food-composition table mapping (``database:``);
 * an **error**: unreadable, not UTF-8, not YAML, empty, no id, or a first key that names nothing we read
   (a misspelling gets a suggestion).
 
@@ -32,6 +33,7 @@ NON_PRODUCTS = {
     "certificate": "lab certificate",
     "pack": "rule pack",
     "factor_set": "energy factor set",
+    "database": "food-table mapping",
 }
 FORMULA_KEYS = ("product", "subformula")
 
