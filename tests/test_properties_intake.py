@@ -85,8 +85,11 @@ def test_any_formula_gives_figures_or_one_clear_message(tmp_path, text):
     assert "Traceback" not in res.output
     assert res.exit_code in (0, 1, 2), (text, res.output)
     if res.exit_code == 0:
-        json.loads(res.output)
         _no_non_finite(res.output)
+        # physically possible: no food holds more energy than pure fat, 37 kJ/g (Reg. (EU) No 1169/2011, Annex XIV)
+        for d in json.loads(res.output)["declarations"]:
+            for key in ("declared_kj_per_100g", "available_kj_per_100g"):
+                assert (d["energy"].get(key) or 0) <= 3700 + 1e-6, (text, d["energy"])
     else:
         assert res.output.startswith("error: ") and "internal error" not in res.output, (text, res.output)
 

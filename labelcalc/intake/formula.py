@@ -171,7 +171,7 @@ class Step(Strict):
     moisture_loss: MoistureLoss | None = None
     oil_uptake: OilUptake | None = None
     yield_factor: Number | None = Field(
-        None, alias="yield", gt=0, le=1, description="finished mass / mass entering the step [-]; the loss is water"
+        None, alias="yield", ge=0.001, le=1, description="finished mass / mass entering the step [-]; the loss is water"
     )
     finished_weight: str | None = Field(
         None, description="measured mass after the step, e.g. '830 g'; the loss is water"

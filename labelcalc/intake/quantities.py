@@ -19,6 +19,7 @@ _UNITS = {
     "ml": ("volume", 1.0),
     "l": ("volume", 1000.0),
 }
+MIN_AMOUNT = 1e-12  # a picogram (or 1e-12 %): below it an amount is no real amount and the arithmetic underflows
 MAX_BATCH_G = 1e9  # one tonne is 1e6 g; a batch beyond a thousand tonnes is a typing error, not a formula
 
 
@@ -80,6 +81,8 @@ def _parse(text: object, allowed: tuple[str, ...]) -> Quantity:
         raise ValueError(f"amount '{text}' is too large (at most {MAX_BATCH_G:,.0f} g, a thousand tonnes)")
     if number <= 0:
         raise ValueError(f"amount '{text}' must be greater than zero")
+    if number * scale < MIN_AMOUNT:
+        raise ValueError(f"amount '{text}' is too small (at least {MIN_AMOUNT:g} g, ml or %)")
     if kind == "percent" and number > 100:
         raise ValueError(f"amount '{text}' is more than 100 %")
     return Quantity(number * scale, kind, str(text))
