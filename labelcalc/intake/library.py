@@ -105,7 +105,7 @@ class Ingredient(BaseModel):
     basis: dict[str, str] = Field(
         default_factory=dict, description="analytical basis of a value where its source states it"
     )
-    nitrogen_factor: float | None = Field(
+    nitrogen_factor: Number | None = Field(
         None, gt=0, le=7, description="nitrogen-to-protein factor the source used for protein"
     )
     assumed_zero: list[ZeroAssumption] = Field(default_factory=list)

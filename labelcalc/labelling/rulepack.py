@@ -190,7 +190,7 @@ class PanelLayout(Strict):
     title_second: str | None = Field(None, description="the title in the second official language, stacked below")
     body_size_pt: Number = Field(7.5, gt=5, le=14)
     energy_large: bool = Field(False, description="print the first energy row large (as in a facts box)")
-    energy_size_factor: float = Field(1.9, ge=1, le=3, description="size of the large energy row, x body size")
+    energy_size_factor: Number = Field(1.9, ge=1, le=3, description="size of the large energy row, x body size")
     energy_amount: Literal["right", "after_label"] = Field(
         "right", description="large energy row: figure right-aligned, or right after the label"
     )
@@ -200,11 +200,11 @@ class PanelLayout(Strict):
     heavy_rule_after: list[str] = Field(
         default_factory=list, description="nutrient keys after which a heavy rule is drawn"
     )
-    heavy_rule_pt: float = Field(2.5, gt=0, le=12, description="weight of a heavy rule")
+    heavy_rule_pt: Number = Field(2.5, gt=0, le=12, description="weight of a heavy rule")
     no_rule_after: list[str] = Field(
         default_factory=list, description="nutrient keys after which no rule is drawn (rows grouped together)"
     )
-    rule_before_footnotes_pt: float | None = Field(None, description="weight of the rule above the footnotes")
+    rule_before_footnotes_pt: Number | None = Field(None, description="weight of the rule above the footnotes")
     serving_lines_on_top: bool = Field(False, description="servings per container and serving size above the rows")
     serving_style: Literal["label_and_amount", "per_line"] = Field(
         "label_and_amount",
@@ -217,7 +217,7 @@ class PanelLayout(Strict):
         description="language code of the second serving line; the household measure is printed only when the "
         "formula gives it in that language too (serving.household_names)",
     )
-    serving_rule_pt: float | None = Field(None, description="rule under the serving lines (default 4 boxed, 1 table)")
+    serving_rule_pt: Number | None = Field(None, description="rule under the serving lines (default 4 boxed, 1 table)")
     serving_note: str | None = Field(
         None, description="a review note printed under the panel about the serving declaration"
     )
