@@ -9,21 +9,23 @@ from __future__ import annotations
 
 import functools
 import json
+import os
 import sys
+import traceback
 from pathlib import Path
 
 import typer
 
 from labelcalc import __version__
 from labelcalc.api import find_library
-from labelcalc.errors import LabelError
+from labelcalc.errors import InputError, LabelError, Problem
 from labelcalc.formulation.composition import compose
 from labelcalc.formulation.energy import energy_by_line, energy_of, load_factor_set, rules_dir
 from labelcalc.intake.formula import load_formula
 from labelcalc.intake.library import load_library
 from labelcalc.labelling.declare import declare
 from labelcalc.labelling.rounding import plain_label
-from labelcalc.labelling.rulepack import get_packs, load_pack_file, load_packs
+from labelcalc.labelling.rulepack import check_formula_against_packs, get_packs, load_pack_file, load_packs
 from labelcalc.outputs.jsondoc import declaration_dict
 from labelcalc.outputs.textreport import compose_text, declare_text
 
@@ -58,7 +60,8 @@ MarketOpt = typer.Option("us,eu", "--market", "-m", help="Comma-separated market
 
 
 def friendly(fn):
-    """Turn LabelError into one message and exit code 2."""
+    """Turn LabelError into one message and exit code 2; an unexpected error into one line, a crash report and
+    exit code 3."""
 
     @functools.wraps(fn)
     def wrapper(*args, **kwargs):
@@ -69,6 +72,26 @@ def friendly(fn):
             raise typer.Exit(2) from None
         except (BrokenPipeError, KeyboardInterrupt):  # pragma: no cover
             raise typer.Exit(1) from None
+        except (typer.Exit, typer.Abort, SystemExit):
+            raise
+        except OSError as exc:  # a file that cannot be read or written: the environment, not a bug
+            typer.echo(f"error: {_os_problem(exc)}", err=True)
+            raise typer.Exit(2) from None
+        except Exception as exc:  # noqa: BLE001 - never a traceback: one line and a crash report
+            from labelcalc.ranges.publish import write_crash_report
+
+            out = kwargs.get("out") if isinstance(kwargs.get("out"), Path) else None
+            report = _crash_report_path(out)
+            what = " ".join(f"{k}={v}" for k, v in kwargs.items() if isinstance(v, (str, Path)))
+            write_crash_report(
+                report, [{"traceback": "".join(traceback.format_exception(exc))}], f"labelcalc {fn.__name__}: {what}"
+            )
+            typer.echo(
+                f"error: internal error ({type(exc).__name__}: {exc}) while working on {what or 'the input'}; "
+                f"crash report: {report}",
+                err=True,
+            )
+            raise typer.Exit(3) from None
 
     return wrapper
 
@@ -215,6 +238,7 @@ def declare_cmd(
     """Each market's declared values: rows, rounding, reference values, columns."""
     lib, f = _load(formula, library)
     packs = get_packs(market.split(","), rules)
+    check_formula_against_packs(f, packs)
     comps = compose(f, lib)
     decls = [declare(c, p) for p in packs for c in comps]  # all computed before anything is printed
     if as_json:
@@ -266,7 +290,9 @@ def assess_cmd(
     from labelcalc.outputs.textreport import assess_text
 
     lib, f = _load(formula, library)
-    items = assessments(f, lib, get_packs(market.split(","), rules))
+    packs = get_packs(market.split(","), rules)
+    check_formula_against_packs(f, packs)
+    items = assessments(f, lib, packs)
     if as_json:
         doc = {
             "product": {"id": f.id, "name": f.header.name, "content_hash": f.content_hash},
@@ -294,9 +320,17 @@ def panel_cmd(
 
     from labelcalc.outputs.panelrun import panels_for
 
+    if date is not None:
+        try:
+            _date.fromisoformat(date)
+        except ValueError:
+            raise InputError(
+                Problem(f"'{date}' is not a date", field="--date", fix="write it as YYYY-MM-DD, e.g. 2026-03-31")
+            ) from None
     lib = _library(formula, library)
     packs = get_packs(market.split(","), rules)
     f = load_formula(formula, lib)
+    check_formula_against_packs(f, packs)
     files, failures = panels_for(formula, lib, packs, out, date or _date.today().isoformat(), _reference(f, lib, packs))
     for p in files:
         typer.echo(f"wrote {p}")
@@ -477,7 +511,7 @@ def sweep_cmd(
     """Replace a share of one ingredient by another, step by step: energy, declared values, claims, statements, cost, and a chart."""
     from labelcalc.files import inside, safe_name
     from labelcalc.outputs.charts import sweep_chart, sweep_series
-    from labelcalc.ranges.rangerun import write_csv, write_json
+    from labelcalc.ranges.publish import write_csv, write_json
     from labelcalc.whatif.explore import first_levels, sweep
 
     if step <= 0 or stop < start:
@@ -753,47 +787,95 @@ def range_cmd(
     panels: bool = typer.Option(False, "--panels", help="Also write panel drafts (PDF) and calculation sheets."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No progress bar."),
 ):
-    """Declare every product of a range for every market: summary table (CSV, XLSX, JSON), errors table and label register.
+    """Declare every product of a range for every market: summary table (CSV, XLSX, JSON), errors table, the
+    fate of every file (files.csv) and the label register.
 
-    Exit code 0: every product produced; 1: some products failed (see errors.csv); 2: the run could not start."""
-    from labelcalc.ranges.rangerun import run_range, write_outputs
+    Exit code 0: every product labelled; 1: some products failed (see errors.csv), all others were written;
+    2: the run could not start (bad option, library, rule pack or register); 3: an internal error (see
+    crash-report.txt in the output folder)."""
+    from labelcalc.ranges.publish import publish, write_crash_report, write_outputs
+    from labelcalc.ranges.rangerun import run_range
 
+    reg = None
     try:
         lib_path = library or find_library(source if source.is_dir() else source.parent / "x")
         markets = [m.strip() for m in market.split(",") if m.strip()]
         range_packs = {p.market: p for p in get_packs(markets, rules)}
-        progress, stop = _progress(quiet)
-        try:
-            result = run_range(
-                source, lib_path, markets, rules, jobs=jobs, progress=progress, with_labels=not no_register
-            )
-        finally:
-            stop()
-        changes = None
         if not no_register:
             from labelcalc.ranges.register import Register
 
             reg = Register(register or out / "label-register.sqlite")
-            changes = reg.compare_and_record(result.labels)
-            reg.close()
-        files = write_outputs(out, result, changes, range_packs)
-        if panels:
-            from labelcalc.outputs.panelrun import write_panels
+            reg.lock()  # held until the outputs are in place: a busy register stops the run now, not at the end
+        progress, stop = _progress(quiet)
+        try:
+            result = run_range(
+                source,
+                lib_path,
+                markets,
+                rules,
+                jobs=jobs,
+                progress=progress,
+                with_labels=not no_register,
+                exclude=[out] + ([register.parent] if register else []),
+            )
+        finally:
+            stop()
+        failed_files = {f["file"] for f in result.files if f["outcome"] != "labelled" and f["kind"] != "subformula"}
+        changes = reg.compare(result.labels, failed_files) if reg else None
+        notes: list[str] = []
 
-            files += write_panels(source, lib_path, markets, rules, out, jobs=jobs)
+        def write(stage: Path) -> list[Path]:
+            files = write_outputs(stage, result, changes, range_packs)
+            if panels:
+                from labelcalc.outputs.panelrun import write_panels
+
+                written, why_not = write_panels(source, lib_path, markets, rules, stage, jobs=jobs)
+                files += written
+                notes.extend(why_not)
+            return files
+
+        files = publish(out, write)
+        if reg:
+            reg.record(result.labels)  # only now: an interrupted run records nothing and its rerun reports the same
     except LabelError as exc:
         typer.echo(f"error: {exc}", err=True)
         raise typer.Exit(2) from None
+    except OSError as exc:  # an output folder or register that cannot be written: nothing was changed
+        typer.echo(f"error: {_os_problem(exc)}", err=True)
+        raise typer.Exit(2) from None
+    except Exception as exc:  # noqa: BLE001 - never a traceback: one line and a crash report
+        report = _crash_report_path(out)
+        write_crash_report(
+            report, [{"traceback": "".join(traceback.format_exception(exc))}], f"labelcalc range {source}"
+        )
+        typer.echo(f"error: internal error ({type(exc).__name__}: {exc}); crash report: {report}", err=True)
+        raise typer.Exit(3) from None
+    finally:
+        if reg:
+            reg.close()
     n_ok, n_bad = result.products_ok, result.products_failed
     typer.echo(
         f"{n_ok} product(s) labelled for {', '.join(markets)}; {n_bad} failed"
         + (f" (see {out / 'errors.csv'})" if n_bad or result.errors else "")
     )
+    kinds: dict[str, int] = {}
+    for f in result.files:
+        kinds[f["outcome"]] = kinds.get(f["outcome"], 0) + 1
+    typer.echo(
+        f"{len(result.files)} source item(s) accounted for: "
+        + ", ".join(f"{n} {k}" for k, n in sorted(kinds.items()))
+        + " (see files.csv)"
+    )
+    for n in notes:
+        typer.echo(n)
     if changes is not None:
-        counts = {s: sum(1 for c in changes if c["status"] == s) for s in ("new", "changed", "unchanged")}
+        counts = {
+            s: sum(1 for c in changes if c["status"] == s) for s in ("new", "changed", "unchanged", "not labelled")
+        }
         typer.echo(
             f"label register: {counts['new']} new, {counts['changed']} changed, {counts['unchanged']} unchanged"
-            + (f" (see {out / 'changes.csv'})" if counts["changed"] else "")
+            + (f", {counts['not labelled']} not labelled in this run" if counts["not labelled"] else "")
+            + (f" (see {out / 'changes.csv'})" if counts["changed"] or counts["not labelled"] else "")
         )
         for c in changes:
             if c["status"] == "changed":
@@ -804,12 +886,37 @@ def range_cmd(
 
     typer.echo(
         "wrote "
-        + ", ".join(display_path(f) for f in files[:6])
+        + ", ".join(display_path(f) or str(f) for f in files[:6])
         + (f" and {len(files) - 6} more" if len(files) > 6 else "")
     )
     typer.echo("DRAFT figures: verify against current local regulation with a qualified regulatory professional.")
+    if result.crashes:
+        typer.echo(
+            f"error: {len(result.crashes)} internal error(s); crash report: {out / 'crash-report.txt'}", err=True
+        )
+        raise typer.Exit(3)
     if result.errors:
         raise typer.Exit(1)
+
+
+def _os_problem(exc: OSError) -> str:
+    where = f"{exc.filename}: " if exc.filename else ""
+    return (
+        f"{where}cannot read or write: {exc.strerror or exc} — check the path and its permissions (nothing was changed)"
+    )
+
+
+def _crash_report_path(out: Path | None) -> Path:
+    """Where an internal error's report goes: the output folder when there is one, else the temp folder."""
+    import tempfile
+
+    if out is not None:
+        try:
+            out.mkdir(parents=True, exist_ok=True)
+            return out / "crash-report.txt"
+        except OSError:
+            pass
+    return Path(tempfile.gettempdir()) / f"labelcalc-crash-{os.getpid()}.txt"
 
 
 def _progress(quiet: bool):
@@ -843,7 +950,7 @@ def register_cmd(
     export: Path | None = typer.Option(None, "--export", help="Write the register to this CSV file."),
 ):
     """List (or export) the labels recorded in the label register."""
-    from labelcalc.ranges.rangerun import write_csv
+    from labelcalc.ranges.publish import write_csv
     from labelcalc.ranges.register import Register
 
     if not db.exists():

@@ -8,7 +8,9 @@ traceback for a :class:`LabelError`.
 
 from __future__ import annotations
 
+import os
 from dataclasses import dataclass, field
+from functools import lru_cache
 from pathlib import Path
 
 
@@ -74,9 +76,14 @@ def display_path(path: str | Path | None) -> str | None:
         return None
     p = Path(path)
     try:
-        return str(p.resolve().relative_to(Path.cwd().resolve()))
+        return str(p.resolve().relative_to(_cwd(os.getcwd())))
     except ValueError:
         return str(p)
+
+
+@lru_cache(maxsize=4)
+def _cwd(cwd: str) -> Path:
+    return Path(cwd).resolve()
 
 
 @dataclass

@@ -14,6 +14,7 @@ from labelcalc.cli import app
 from labelcalc.ranges.rangerun import run_range
 
 runner = CliRunner()
+ROOT = Path(__file__).resolve().parent.parent
 
 GOOD = {
     "good_a": """
@@ -225,8 +226,37 @@ def test_duplicate_product_ids_are_reported(tmp_path):
     files["good_a_copy"] = GOOD["good_a"]
     src = make_range(tmp_path / "src", files)
     res = run_range(src, src / "ingredients", ["eu"])
-    assert any("'good_a' is defined twice" in e["message"] for e in res.errors)
-    assert sum(1 for r in res.rows if r["product_id"] == "good_a") == 1
+    # neither copy is picked: each file is an error row carrying the id, and each counts as failed
+    dup = [e for e in res.errors if "'good_a' is defined by 2 files" in e["message"]]
+    assert {e["file"].rsplit("/", 1)[-1] for e in dup} == {"good_a.yaml", "good_a_copy.yaml"}
+    assert {e["product_id"] for e in dup} == {"good_a"}
+    assert not any(r["product_id"] == "good_a" for r in res.rows)
+    assert res.products_failed == 2 and res.products_ok == 1
+
+
+def test_errors_csv_names_ids_and_lines(tmp_path):
+    src = make_range(tmp_path / "src", {**GOOD, **BROKEN})
+    (src / "renamed_file.yaml").write_text(
+        textwrap.dedent(BROKEN["bad_ingredient"]).replace("bad_ingredient", "id_not_stem"), encoding="utf-8"
+    )
+    out = tmp_path / "out"
+    res = runner.invoke(app, ["range", str(src), "--market", "eu", "--out", str(out), "-q", "--no-register"])
+    assert res.exit_code == 1, res.output
+    rows = list(csv.DictReader((out / "errors.csv").open(encoding="utf-8")))
+    by = {r["product_id"]: r for r in rows}
+    assert "id_not_stem" in by and "renamed_file" not in by  # the product's id, not its file stem
+    assert by["bad_moisture"]["line"] == "4"  # a composition-stage error keeps its line
+    assert by["bad_yaml"]["file"].endswith("bad_yaml.yaml")  # no id to read: the stem stands in
+
+
+def test_sheet_errors_appear_once(tmp_path):
+    sheet = tmp_path / "s.csv"
+    sheet.write_text("product_id,ingredient,amount,serving_g\nx,flour,100 g,abc\ny,flour,100 g,30\n", encoding="utf-8")
+    shutil.copytree(ROOT / "tests" / "data" / "bad" / "ingredients", tmp_path / "ingredients")
+    res = runner.invoke(app, ["range", str(sheet), "-m", "eu", "-o", str(tmp_path / "out"), "-q", "--no-register"])
+    assert res.exit_code == 1, res.output
+    rows = list(csv.DictReader((tmp_path / "out" / "errors.csv").open(encoding="utf-8")))
+    assert len(rows) == 1 and rows[0]["product_id"] == "x" and "'abc' is not a number" in rows[0]["message"]
 
 
 def test_identical_input_gives_a_byte_identical_workbook(tmp_path):

@@ -494,7 +494,8 @@ def _apply_step(group, rows, j, si, table, T, unkT, mass, unknown, total, logs, 
             )
             continue
         water_avail = W[i] + oil[i, _W] * U[i] / 100.0
-        if L[i] < -1e-7:
+        tol = min(1e-7, 1e-9 * M[i])  # 1e-7 g, or relative for a tiny batch (a picogram batch must fail too)
+        if L[i] < -tol:
             errors[r] = InputError(
                 Problem(
                     f"step '{st.name}': the target water content is higher than the water present ({W[i] / M[i] * 100:.2f} g/100 g); a moisture loss cannot add water",
@@ -503,7 +504,7 @@ def _apply_step(group, rows, j, si, table, T, unkT, mass, unknown, total, logs, 
                 )
             )
             continue
-        if L[i] > water_avail + 1e-7:
+        if L[i] > water_avail + tol:
             errors[r] = InputError(
                 Problem(
                     f"step '{st.name}': moisture loss of {L[i]:.2f} g exceeds the {water_avail:.2f} g of water present",

@@ -175,9 +175,13 @@ def rules_dir() -> Path:
 
 @lru_cache(maxsize=64)
 def load_factor_set(ident: str, folder: str | None = None) -> FactorSet:
-    """Load ``rules/energy/<ident>.yaml`` and validate it."""
+    """Load ``<folder>/energy/<ident>.yaml`` and validate it. A set the folder does not hold comes from the
+    built-in rules, so a ``--rules`` folder may override just the sets it edits."""
     base = Path(folder) if folder else rules_dir()
     path = base / "energy" / f"{ident}.yaml"
+    if folder and not path.exists() and (rules_dir() / "energy" / f"{ident}.yaml").exists():
+        base = rules_dir()
+        path = base / "energy" / f"{ident}.yaml"
     if not path.exists():
         known = sorted(p.stem for p in (base / "energy").glob("*.yaml"))
         raise UnknownNameError(Problem(f"unknown energy factor set '{ident}'", fix=f"known: {', '.join(known)}"))

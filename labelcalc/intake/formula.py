@@ -13,16 +13,16 @@ import difflib
 import hashlib
 import json
 import os
-import re
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
 
-from labelcalc.errors import InputError, Problem, ProblemList
+from labelcalc.errors import InputError, Problem, ProblemList, display_path
+from labelcalc.intake.catalogue import FormulaIndex
 from labelcalc.intake.library import Ingredient, Library
-from labelcalc.intake.quantities import Quantity, parse_quantity
+from labelcalc.intake.quantities import Number, Quantity, parse_quantity
 from labelcalc.intake.yamlsafe import LoadedYaml, load_yaml, pydantic_problems
 
 Range = tuple[float, float]
@@ -56,9 +56,9 @@ class Header(Strict):
     )
     category: str | None = Field(None, description="product category key of the markets' reference amounts")
     form: Literal["solid", "liquid"] = "solid"
-    density_g_per_ml: float | None = Field(None, gt=0, description="[g/ml], needed for per 100 ml figures of liquids")
+    density_g_per_ml: Number | None = Field(None, gt=0, description="[g/ml], needed for per 100 ml figures of liquids")
     serving: Serving | None = None
-    servings_per_container: float | None = Field(None, gt=0)
+    servings_per_container: Number | None = Field(None, gt=0)
     net_quantity: str | None = Field(None, description="net quantity with unit, e.g. '150 g'")
     reference_formula: str | None = Field(
         None, description="id or path of the formula a comparative claim compares with"
@@ -128,10 +128,10 @@ def _range(v):
 
 
 class MoistureLoss(Strict):
-    percent_of_batch: float | list[float] | None = Field(
+    percent_of_batch: Number | list[Number] | None = Field(
         None, description="water lost as % of the mass entering the step [%]"
     )
-    final_water: float | list[float] | None = Field(None, description="water content after the step [g/100 g]")
+    final_water: Number | list[Number] | None = Field(None, description="water content after the step [g/100 g]")
 
     @model_validator(mode="after")
     def _one(self):
@@ -148,10 +148,10 @@ class MoistureLoss(Strict):
 
 class OilUptake(Strict):
     oil: str | None = Field(None, description="id of the frying oil: an ingredient or an oil-blend sub-formula")
-    per_100g: float | list[float] | None = Field(
+    per_100g: Number | list[Number] | None = Field(
         None, description="oil taken up per 100 g of product after the step [g/100 g]; [low, high] for a range"
     )
-    final_fat: float | list[float] | None = Field(None, description="total lipid content after the step [g/100 g]")
+    final_fat: Number | list[Number] | None = Field(None, description="total lipid content after the step [g/100 g]")
 
     @model_validator(mode="after")
     def _one(self):
@@ -170,8 +170,8 @@ class Step(Strict):
     step: str = Field(description="a name for the step, e.g. 'frying' or 'baking'")
     moisture_loss: MoistureLoss | None = None
     oil_uptake: OilUptake | None = None
-    yield_factor: float | None = Field(
-        None, alias="yield", gt=0, le=1, description="finished mass / mass entering the step [-]; the loss is water"
+    yield_factor: Number | None = Field(
+        None, alias="yield", ge=0.001, le=1, description="finished mass / mass entering the step [-]; the loss is water"
     )
     finished_weight: str | None = Field(
         None, description="measured mass after the step, e.g. '830 g'; the loss is water"
@@ -191,10 +191,13 @@ class Step(Strict):
         return self
 
 
+MAX_BATCH_LINES = 5_000  # far above any real formula; bounds the work a mistaken file can cause
+
+
 class FormulaFile(Strict):
     product: Header | None = None
     subformula: Header | None = None
-    batch: list[BatchLine] = Field(min_length=1)
+    batch: list[BatchLine] = Field(min_length=1, max_length=MAX_BATCH_LINES)
     processing: list[Step] = Field(default_factory=list)
 
     @model_validator(mode="after")
@@ -362,55 +365,6 @@ def map_tree(f: Formula, tag: str, *, on_line=None, on_step=None) -> Formula:
 # --------------------------------------------------------------------- loading
 
 
-class FormulaIndex:
-    """Finds formula files by id in a set of folders (recursively)."""
-
-    def __init__(self, folders: list[Path]):
-        self.paths: dict[str, Path] = {}
-        self.kinds: dict[str, str] = {}
-        self.products: list[Path] = []  # product files, in path order
-        self.duplicates: list[tuple[str, Path, Path]] = []  # (id, kept file, other file)
-        for folder in folders:
-            for f in sorted(folder.rglob("*.y*ml")):
-                if f.suffix not in (".yaml", ".yml"):
-                    continue
-                ident = _peek_id(f)
-                if not ident:
-                    continue
-                if ident[1] in self.paths:
-                    self.duplicates.append((ident[1], self.paths[ident[1]], f))
-                    continue
-                self.paths[ident[1]] = f
-                self.kinds[ident[1]] = ident[0]
-                if ident[0] == "product":
-                    self.products.append(f)
-
-
-_INLINE_HEADER = re.compile(r"^(product|subformula):\s*\{.*?\bid:\s*([^,}\s]+)")
-
-
-def _peek_id(path: Path) -> tuple[str, str] | None:
-    """Cheap look at a file's header id without full validation."""
-    try:
-        with path.open(encoding="utf-8") as fh:
-            head = fh.read(4000)
-    except (OSError, UnicodeDecodeError):
-        return None
-    kind = None
-    for raw in head.splitlines():
-        s = raw.split(" #")[0].rstrip()
-        m = _INLINE_HEADER.match(s)
-        if m:
-            return m.group(1), m.group(2).strip("'\"")
-        if s in ("product:", "subformula:"):
-            kind = s[:-1]
-        elif kind and s.startswith((" ", "\t")) and s.strip().startswith("id:"):
-            return kind, s.strip()[3:].strip().strip("'\"")
-        elif kind and s and not s.startswith((" ", "\t", "#")):
-            kind = None
-    return None
-
-
 def _hash(obj) -> str:
     return hashlib.sha256(json.dumps(obj, sort_keys=True, default=str).encode()).hexdigest()[:16]
 
@@ -438,8 +392,10 @@ def load_formula(
         return cache[key]
     index = _index or FormulaIndex([p.parent.resolve(), *[Path(s).resolve() for s in (search or [])]])
     if fast:  # parse once without line tracking; on any problem parse again to report lines
+        kept = index.take_parsed(p)
         try:
-            formula = _build(load_yaml(p, with_lines=False), library, index, _stack, cache)
+            loaded = load_yaml(p, with_lines=False) if kept is None else LoadedYaml(kept, {}, display_path(p) or str(p))
+            formula = _build(loaded, library, index, _stack, cache)
         except InputError:
             formula = _build(load_yaml(p), library, index, _stack, cache)
     else:
@@ -461,6 +417,17 @@ def _build(loaded: LoadedYaml, library: Library, index: FormulaIndex, stack: tup
                 "not a formula file: expected 'product:' or 'subformula:', 'batch:' and 'processing:'",
                 file=loaded.file,
                 line=1,
+            )
+        )
+    batch_raw = data.get("batch")
+    if isinstance(batch_raw, list) and len(batch_raw) > MAX_BATCH_LINES:
+        raise InputError(
+            Problem(
+                f"{len(batch_raw):,} batch lines; at most {MAX_BATCH_LINES:,} are read",
+                file=loaded.file,
+                line=loaded.line_of(("batch",)),
+                field="batch",
+                fix="check that this is a formula (sub-formulas group lines)",
             )
         )
     try:
@@ -485,6 +452,10 @@ def _build(loaded: LoadedYaml, library: Library, index: FormulaIndex, stack: tup
     def resolve(ref: str, path: tuple, *, want: str | None = None):
         line = loaded.line_of(path)
         fld = ".".join(str(x) if not isinstance(x, int) else f"[{x}]" for x in path).replace(".[", "[")
+        if ref in index.duplicates and want != "ingredient":
+            dup = index.duplicate_problem(ref, loaded.file, line=line, field=fld)
+            problems.problems.append(dup)
+            return None, None
         in_sub = ref in index.paths
         in_lib = ref in library
         if want == "ingredient" or (want is None and in_lib and not in_sub):
@@ -564,7 +535,8 @@ def _build(loaded: LoadedYaml, library: Library, index: FormulaIndex, stack: tup
             line=batch_line,
             field="batch",
         )
-    total = 100.0 if abs_total == 0 else abs_total / (1 - pct_total / 100)
+    # with the problems above the total is never used (they are raised below); keep it finite meanwhile
+    total = 100.0 if abs_total == 0 else abs_total / (1 - pct_total / 100) if pct_total < 100 else abs_total
     lines: list[Line] = []
     for i, (b, q) in enumerate(zip(model.batch, quantities)):
         grams = q.value if q.kind == "mass" else total * q.value / 100
@@ -596,7 +568,7 @@ def _build(loaded: LoadedYaml, library: Library, index: FormulaIndex, stack: tup
                 st.oil_final_fat = _range(s.oil_uptake.final_fat)
         steps.append(st)
     problems.raise_if_any()
-    return Formula(
+    formula = Formula(
         header=head,
         kind=kind,
         lines=lines,
@@ -612,3 +584,36 @@ def _build(loaded: LoadedYaml, library: Library, index: FormulaIndex, stack: tup
         batch_grams=total,
         raw=data,
     )
+    _check_serving(formula, loaded, kind)
+    return formula
+
+
+MAX_PACKAGE_G = 1e6  # one tonne: beyond any consumer package; keeps per-package figures in exact arithmetic
+
+
+def _check_serving(f: Formula, loaded: LoadedYaml, kind: str) -> None:
+    """A serving larger than the package (when both are known in grams), or a package beyond a tonne, is refused."""
+    serving, net = f.serving_grams(), f.net_grams()
+    spc = f.header.servings_per_container
+    package = net if net is not None else (serving * spc if serving is not None and spc is not None else None)
+    for value, what, fld in ((serving, "serving", "serving.size"), (package, "package", "net_quantity")):
+        if value is not None and value > MAX_PACKAGE_G:
+            raise InputError(
+                Problem(
+                    f"a {what} of {value:,.0f} g is more than {MAX_PACKAGE_G:,.0f} g (a tonne)",
+                    file=loaded.file,
+                    line=loaded.line_of((kind, *fld.split("."))) or loaded.line_of((kind, "servings_per_container")),
+                    field=f"{kind}.{fld}" if what == "serving" or net is not None else f"{kind}.servings_per_container",
+                    fix="check the amount, its unit and servings_per_container",
+                )
+            )
+    if serving is not None and net is not None and serving > net * (1 + 1e-9):
+        raise InputError(
+            Problem(
+                f"serving ({serving:g} g) is larger than the net quantity ({net:g} g)",
+                file=loaded.file,
+                line=loaded.line_of((kind, "serving", "size")),
+                field=f"{kind}.serving.size",
+                fix="check both amounts and their units",
+            )
+        )

@@ -42,18 +42,20 @@ from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_valida
 
 from labelcalc import components as C
 from labelcalc.errors import InputError, Problem, ProblemList, display_path
+from labelcalc.intake.quantities import Number
 from labelcalc.intake.yamlsafe import LoadedYaml, load_yaml, pydantic_problems
 
 SUM_TOLERANCE_G = 0.5  # published tables are rounded; common practice
+_PER_GRAM = {"g": 1.0, "mg": 1e3, "ug": 1e6}
 
 
 class AtwaterFactors(BaseModel):
     """Ingredient-specific energy factors [kcal/g] (21 CFR 101.9(c)(1)(i)(A))."""
 
     model_config = ConfigDict(extra="forbid")
-    protein: float = Field(gt=0, le=9.5, description="[kcal/g]")
-    fat: float = Field(gt=0, le=9.5, description="[kcal/g]")
-    carbohydrate: float = Field(gt=0, le=4.5, description="[kcal/g], applied to total carbohydrate")
+    protein: Number = Field(gt=0, le=9.5, description="[kcal/g]")
+    fat: Number = Field(gt=0, le=9.5, description="[kcal/g]")
+    carbohydrate: Number = Field(gt=0, le=4.5, description="[kcal/g], applied to total carbohydrate")
     source: str = Field(min_length=3)
 
 
@@ -61,15 +63,15 @@ class LipidEnergy(BaseModel):
     """Energy factor of a partially absorbed lipid [kJ/g and kcal/g]."""
 
     model_config = ConfigDict(extra="forbid")
-    kj_per_g: float = Field(ge=0, le=38)
-    kcal_per_g: float = Field(ge=0, le=9.1)
+    kj_per_g: Number = Field(ge=0, le=38)
+    kcal_per_g: Number = Field(ge=0, le=9.1)
     kind: str | None = Field(None, description="e.g. 'salatrim' where a market gives that kind its own factor")
     source: str = Field(min_length=3)
 
 
 class Price(BaseModel):
     model_config = ConfigDict(extra="forbid")
-    per_kg: float = Field(gt=0)
+    per_kg: Number = Field(gt=0)
     currency: str = Field(min_length=3, max_length=3)
 
 
@@ -98,12 +100,12 @@ class Ingredient(BaseModel):
         default_factory=dict, description="the name in other languages, by language code (fr: Pommes de terre)"
     )
     source: str = Field(min_length=3)
-    per_100g: dict[str, float | None] = Field(default_factory=dict)
+    per_100g: dict[str, Number | None] = Field(default_factory=dict)
     sources: dict[str, str] = Field(default_factory=dict)
     basis: dict[str, str] = Field(
         default_factory=dict, description="analytical basis of a value where its source states it"
     )
-    nitrogen_factor: float | None = Field(
+    nitrogen_factor: Number | None = Field(
         None, gt=0, le=7, description="nitrogen-to-protein factor the source used for protein"
     )
     assumed_zero: list[ZeroAssumption] = Field(default_factory=list)
@@ -284,6 +286,17 @@ def check_ingredient(ing: Ingredient, where: dict) -> list[Problem]:
         return out
     vals, msgs = _expand(ing.per_100g, ing.zeros)
     out += [Problem(m, field=f"{ing.id}.per_100g", **where) for m in msgs]
+    for k, v in vals.items():  # no component can weigh more than the 100 g it is part of
+        grams = v / _PER_GRAM.get(C.BY_KEY[k].unit, 1.0)
+        if grams > 100 + SUM_TOLERANCE_G:
+            out.append(
+                Problem(
+                    f"{k} {v:g} {C.BY_KEY[k].unit} per 100 g weighs more than 100 g",
+                    field=f"{ing.id}.per_100g.{k}",
+                    fix=f"check the value and its unit ({k} is given in {C.BY_KEY[k].unit} per 100 g)",
+                    **where,
+                )
+            )
     total = sum(vals.get(k, 0.0) for k in C.TOTAL_KEYS)
     if total > 100 + SUM_TOLERANCE_G:
         out.append(

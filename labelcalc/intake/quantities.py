@@ -3,9 +3,13 @@
 from __future__ import annotations
 
 import difflib
+import math
 import re
 from dataclasses import dataclass
 from functools import lru_cache
+from typing import Annotated
+
+from pydantic import AllowInfNan, BeforeValidator
 
 _UNITS = {
     "g": ("mass", 1.0),
@@ -15,6 +19,19 @@ _UNITS = {
     "ml": ("volume", 1.0),
     "l": ("volume", 1000.0),
 }
+MIN_AMOUNT = 1e-12  # a picogram (or 1e-12 %): below it an amount is no real amount and the arithmetic underflows
+MAX_BATCH_G = 1e9  # one tonne is 1e6 g; a batch beyond a thousand tonnes is a typing error, not a formula
+
+
+def _refuse_bool(v: object) -> object:
+    if isinstance(v, bool):
+        raise ValueError("give a number here, not yes/no or true/false")
+    return v
+
+
+Number = Annotated[float, BeforeValidator(_refuse_bool), AllowInfNan(False)]
+"""A float field of an input file: booleans (``yes``, ``true``) and non-finite values refused."""
+
 _RE = re.compile(r"^\s*([0-9]*\.?[0-9]+(?:[eE][-+]?[0-9]+)?)\s*([A-Za-z%]+)\s*$")
 
 
@@ -60,6 +77,12 @@ def _parse(text: object, allowed: tuple[str, ...]) -> Quantity:
     kind, scale = _UNITS[key]
     if kind not in allowed:
         raise ValueError(f"'{text}': a {kind} is not allowed here (use {' or '.join(allowed)})")
+    if not math.isfinite(number) or number * scale > MAX_BATCH_G:
+        raise ValueError(f"amount '{text}' is too large (at most {MAX_BATCH_G:,.0f} g, a thousand tonnes)")
     if number <= 0:
         raise ValueError(f"amount '{text}' must be greater than zero")
+    if number * scale < MIN_AMOUNT:
+        raise ValueError(f"amount '{text}' is too small (at least {MIN_AMOUNT:g} g, ml or %)")
+    if kind == "percent" and number > 100:
+        raise ValueError(f"amount '{text}' is more than 100 %")
     return Quantity(number * scale, kind, str(text))

@@ -30,8 +30,8 @@ import csv
 from dataclasses import dataclass
 from pathlib import Path
 
-from labelcalc.errors import InputError, Problem, display_path
-from labelcalc.intake.formula import FormulaIndex, _peek_id
+from labelcalc.errors import InputError, Problem, ProblemList, display_path
+from labelcalc.intake.formula import FormulaIndex
 
 PRODUCT_COLS = (
     "product_name",
@@ -70,13 +70,7 @@ class SheetProduct:
 
 def product_files(folder: Path) -> list[Path]:
     """Formula files of finished products (not sub-formulas) in a folder tree."""
-    out = []
-    for f in sorted(folder.rglob("*.y*ml")):
-        if f.suffix in (".yaml", ".yml"):
-            ident = _peek_id(f)
-            if ident and ident[0] == "product":
-                out.append(f)
-    return out
+    return FormulaIndex([folder]).products
 
 
 def _num(v, row, col, file):
@@ -99,29 +93,68 @@ def _range_or_num(v, row, col, file):
 
 
 def read_rows(path: Path) -> tuple[list[tuple[int, dict]], dict[str, tuple[int, dict]]]:
-    """Rows of the lines sheet (with their row numbers) and, for XLSX, the products sheet by id."""
-    file = display_path(path)
+    """Rows of the lines sheet (with their row numbers) and, for XLSX, the products sheet by id.
+
+    Refused with a clear message: a CSV that is not UTF-8, a header naming a column twice, an unknown column.
+    A row with more cells than the header, or a product listed twice in the products sheet, becomes a row
+    problem (see :func:`sheet_products`)."""
+    file = display_path(path) or str(path)
     if path.suffix.lower() == ".csv":
-        with path.open(newline="", encoding="utf-8-sig") as fh:
-            reader = csv.DictReader(fh)
-            _check_columns(reader.fieldnames or [], file, "")
-            return [(i, {k: (v or "").strip() for k, v in r.items() if k}) for i, r in enumerate(reader, start=2)], {}
+        try:
+            with path.open(newline="", encoding="utf-8-sig") as fh:
+                reader = csv.reader(fh)
+                header = [h.strip() for h in next(reader, [])]
+                _check_columns(header, file, "")
+                rows = [(i, _row(header, values, file, i)) for i, values in enumerate(reader, start=2)]
+        except UnicodeDecodeError as exc:
+            raise InputError(
+                Problem(
+                    f"not UTF-8 text (byte {exc.start + 1})",
+                    file=file,
+                    fix="save the sheet as 'CSV UTF-8' (or as .xlsx)",
+                )
+            ) from None
+        except csv.Error as exc:
+            raise InputError(Problem(f"cannot read CSV: {exc}", file=file)) from None
+        return [(i, r) for i, r in rows if any(v for k, v in r.items() if k != EXTRA)], {}
     if path.suffix.lower() == ".xlsx":
         import openpyxl
 
         try:
             wb = openpyxl.load_workbook(path, read_only=True, data_only=True)
-        except Exception as exc:  # openpyxl raises several types for a broken file
+        except Exception as exc:  # noqa: BLE001 - openpyxl raises several types for a broken file
             raise InputError(Problem(f"cannot read workbook: {exc}", file=file)) from None
         sheet = wb["lines"] if "lines" in wb.sheetnames else wb[wb.sheetnames[0]]
         rows = _sheet_rows(sheet, file)
-        products = {}
+        products: dict[str, tuple[int, dict]] = {}
         if "products" in wb.sheetnames:
             for i, r in _sheet_rows(wb["products"], file + " [products]"):
-                if r.get("product_id"):
-                    products[r["product_id"]] = (i, r)
+                pid = r.get("product_id")
+                if not pid:
+                    continue
+                if pid in products:  # refused, never merged: the product gets an error row
+                    first = products[pid][0]
+                    r = {**products[pid][1], DUPLICATE: f"listed twice in the products sheet (rows {first} and {i})"}
+                    i = first
+                products[pid] = (i, r)
         return rows, products
     raise InputError(Problem("a range source is a folder of formula files, a .csv or an .xlsx file", file=file))
+
+
+EXTRA = "__extra__"  # cells beyond the header
+DUPLICATE = "__duplicate__"  # a product given twice
+
+
+def _row(header: list[str], values, file: str, line: int) -> dict:
+    r = {h: ("" if v is None else str(v).strip()) for h, v in zip(header, values) if h}
+    extra = [
+        str(v).strip()
+        for j, v in enumerate(values)
+        if (j >= len(header) or not header[j]) and v is not None and str(v).strip()
+    ]
+    if extra:
+        r[EXTRA] = f"{len(extra)} cell(s) beyond the last column or under no heading ({', '.join(extra[:3])})"
+    return r
 
 
 def _sheet_rows(sheet, file):
@@ -130,8 +163,8 @@ def _sheet_rows(sheet, file):
     _check_columns(header, file, f" of sheet '{sheet.title}'")
     out = []
     for i, values in enumerate(it, start=2):
-        r = {h: ("" if v is None else str(v).strip()) for h, v in zip(header, values) if h}
-        if any(r.values()):
+        r = _row(header, values, file, i)
+        if any(v for k, v in r.items() if k != EXTRA) or EXTRA in r:
             out.append((i, r))
     return out
 
@@ -141,7 +174,18 @@ def _check_columns(cols, file, where):
 
     if "product_id" not in cols:
         raise InputError(Problem(f"missing column 'product_id'{where}", file=file, line=1))
+    seen: set[str] = set()
     for c in cols:
+        if c and c in seen:
+            raise InputError(
+                Problem(
+                    f"column '{c}' appears twice{where}",
+                    file=file,
+                    line=1,
+                    fix="keep one of them (the values would otherwise be ambiguous)",
+                )
+            )
+        seen.add(c)
         if c and c not in ALL_COLS:
             near = difflib.get_close_matches(c, sorted(ALL_COLS), n=2)
             raise InputError(
@@ -155,29 +199,63 @@ def _check_columns(cols, file, where):
 
 
 def sheet_products(path: Path) -> tuple[list[SheetProduct], list[Problem]]:
-    """Products of a spreadsheet as formula data; rows that cannot be read become problems."""
+    """Products of a spreadsheet as formula data; rows that belong to no product become problems.
+
+    A product whose rows are refused (split into separate blocks, product columns that disagree, cells beyond
+    the header, listed twice in the products sheet, no batch line) is returned with its error, reported once."""
     file = display_path(path) or str(path)
     rows, products_sheet = read_rows(path)
     grouped: dict[str, list[tuple[int, dict]]] = {}
     problems: list[Problem] = []
+    last = None
     for i, r in rows:
         pid = r.get("product_id", "")
         if not pid:
             problems.append(Problem("row has no product_id", file=file, line=i, field="product_id"))
             continue
+        if pid in grouped and last != pid:
+            r = {**r, DUPLICATE: f"rows of product '{pid}' appear in two places (row {grouped[pid][-1][0]} and {i})"}
         grouped.setdefault(pid, []).append((i, r))
+        last = pid
+    for pid in products_sheet:
+        if pid not in grouped:
+            grouped[pid] = []
     out = []
     for pid, prow in grouped.items():
         try:
+            _refuse_bad_rows(pid, prow, products_sheet.get(pid), file)
             out.append(_product(pid, prow, products_sheet.get(pid), file))
         except InputError as exc:
-            for p in exc.problems:
-                p.field = p.field or "row"
-            problems.append(
-                Problem(str(exc.problems[0].message), file=file, line=exc.problems[0].line, field=exc.problems[0].field)
-            )
             out.append(SheetProduct(pid, {"__error__": exc}, {}, file))
     return out, problems
+
+
+def _refuse_bad_rows(pid: str, rows: list[tuple[int, dict]], prod_row, file: str) -> None:
+    problems = ProblemList()
+    for i, r in ([prod_row] if prod_row else []) + rows:
+        for key in (DUPLICATE, EXTRA):
+            if key in r:
+                problems.add(r[key], file=file, line=i, field="row" if key == EXTRA else "product_id")
+    if not any(r.get("ingredient") or r.get("subformula") or r.get("amount") for _, r in rows):
+        problems.add(
+            f"product '{pid}' has no batch line",
+            file=file,
+            line=prod_row[0] if prod_row else (rows[0][0] if rows else None),
+            field="product_id",
+            fix="add rows with ingredient (or subformula) and amount for it",
+        )
+    for col in PRODUCT_COLS + STEP_COLS:
+        given = [(i, r[col]) for i, r in rows if r.get(col)]
+        if len({v for _, v in given}) > 1:
+            problems.add(
+                f"'{col}' differs between rows {given[0][0]} and "
+                f"{next(i for i, v in given if v != given[0][1])} of product '{pid}'",
+                file=file,
+                line=given[0][0],
+                field=col,
+                fix="give product columns once, on the product's first row",
+            )
+    problems.raise_if_any()
 
 
 def _first(rows, col):
@@ -252,4 +330,4 @@ def _product(pid, rows, prod_row, file) -> SheetProduct:
 
 
 def index_for(source: Path) -> FormulaIndex:
-    return FormulaIndex([source if source.is_dir() else source.parent])
+    return FormulaIndex([source if source.is_dir() else source.parent], keep_products=source.is_dir())

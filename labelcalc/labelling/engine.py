@@ -132,7 +132,7 @@ class LabelEngine:
         rules_root: str | None = None,
     ):
         self.pack = pack
-        self.rules_root = rules_root
+        self.rules_root = rules_root or pack.energy_root  # a --rules folder's own energy/ sets (#13)
         self._check_pack()
         self.errors: list[tuple[Composition, LabelError]] = []
         ok, plans, methods, refs = [], [], [], []

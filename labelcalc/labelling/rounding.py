@@ -15,6 +15,8 @@ from typing import Literal
 import numpy as np
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
+from labelcalc.intake.quantities import Number
+
 TIE_MODES = {"half_up": ROUND_HALF_UP, "half_even": ROUND_HALF_EVEN}
 _NOISE = Decimal("1e-9")
 _ZERO = Decimal(0)
@@ -66,9 +68,9 @@ class Condition(BaseModel):
 
     model_config = ConfigDict(extra="forbid")
     nutrient: str
-    below: float | None = None
-    up_to: float | None = None
-    at_least: float | None = None
+    below: Number | None = None
+    up_to: Number | None = None
+    at_least: Number | None = None
 
 
 class Band(BaseModel):
@@ -76,13 +78,13 @@ class Band(BaseModel):
     ``only_if`` conditions hold) decides the declared value."""
 
     model_config = ConfigDict(extra="forbid")
-    below: float | None = Field(None, description="band holds when value < below")
-    up_to: float | None = Field(None, description="band holds when value <= up_to")
-    step: float | None = Field(None, gt=0, description="round to the nearest multiple of step")
+    below: Number | None = Field(None, description="band holds when value < below")
+    up_to: Number | None = Field(None, description="band holds when value <= up_to")
+    step: Number | None = Field(None, gt=0, description="round to the nearest multiple of step")
     significant_figures: int | None = Field(None, ge=1, le=6)
     declare: str | None = Field(None, description="fixed text to print, e.g. '0' or 'less than 1'")
-    value: float | None = Field(None, description="number the fixed text stands for, used for percentages")
-    min_step: float | None = Field(None, gt=0, description="with significant_figures: never finer than this")
+    value: Number | None = Field(None, description="number the fixed text stands for, used for percentages")
+    min_step: Number | None = Field(None, gt=0, description="with significant_figures: never finer than this")
     only_if: list[Condition] = Field(default_factory=list)
     note: str | None = None
 
@@ -126,10 +128,10 @@ class RoundingRule(BaseModel):
             if last is not None and bound < last:
                 raise ValueError("band bounds must not decrease")
             last = bound
-        if (self.bands[-1].below is not None or self.bands[-1].up_to is not None) and not any(
-            b.below is None and b.up_to is None for b in self.bands
-        ):
-            raise ValueError("the last band must be open (no below/up_to) so every value is covered")
+        if not any(b.below is None and b.up_to is None and not b.only_if for b in self.bands):
+            raise ValueError(
+                "some values are covered by no band: the last band must have no below/up_to and no only_if"
+            )
         return self
 
 

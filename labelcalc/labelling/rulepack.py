@@ -13,11 +13,12 @@ from functools import lru_cache
 from pathlib import Path
 from typing import Literal
 
-from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
+from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, ValidationError, model_validator
 
 from labelcalc import components as C
-from labelcalc.errors import Problem, ProblemList, RuleError, UnknownNameError
+from labelcalc.errors import InputError, Problem, ProblemList, RuleError, UnknownNameError
 from labelcalc.formulation.energy import Confidence, load_factor_set, rules_dir
+from labelcalc.intake.quantities import Number
 from labelcalc.intake.yamlsafe import load_yaml, pydantic_problems
 from labelcalc.labelling.rounding import RoundingRule
 from labelcalc.labelling.rulepack_assess import Allergens, Claim, Compliance, FrontOfPack, IngredientListRule, Statement
@@ -53,21 +54,21 @@ class Cited(Strict):
 
 
 class ReferenceAmount(Cited):
-    amount_g: float = Field(gt=0, description="[g] reference amount customarily consumed")
+    amount_g: Number = Field(gt=0, description="[g] reference amount customarily consumed")
     label: str | None = None
     small: bool | None = Field(None, description="true when the market treats it as a small reference amount")
 
 
 class DualColumn(Cited):
-    from_percent: float = Field(gt=0, description="container at or above this % of the reference amount ...")
-    to_percent: float = Field(gt=0, description="... and at or below this % gets a second, per-container column")
+    from_percent: Number = Field(gt=0, description="container at or above this % of the reference amount ...")
+    to_percent: Number = Field(gt=0, description="... and at or below this % gets a second, per-container column")
 
 
 class Servings(Strict):
     required: bool = Field(description="the market's panel needs a serving size")
     reference_amounts: dict[str, ReferenceAmount] = Field(default_factory=dict)
     reference_amount_required: bool = False
-    single_serving_below_percent: float | None = Field(
+    single_serving_below_percent: Number | None = Field(
         None, description="container below this % of the reference amount is one serving"
     )
     single_serving: Cited | None = None
@@ -80,7 +81,7 @@ class NutrientDef(Cited):
     """How a declared nutrient is built from labelcalc components."""
 
     unit: Literal["g", "mg", "ug", "kJ", "kcal"]
-    sum: dict[str, float] | None = Field(None, description="component (or derived total) -> factor into this unit")
+    sum: dict[str, Number] | None = Field(None, description="component (or derived total) -> factor into this unit")
     energy: Literal["kJ", "kcal"] | None = Field(None, description="this row is the declared energy in that unit")
 
     @model_validator(mode="after")
@@ -98,7 +99,7 @@ class NutrientDef(Cited):
 
 
 class ReferenceValue(Cited):
-    amount: float = Field(gt=0)
+    amount: Number = Field(gt=0)
     unit: Literal["g", "mg", "ug", "kJ", "kcal"]
 
 
@@ -111,10 +112,10 @@ class Trigger(Strict):
     added: str | None = Field(
         None, description="shown when an ingredient of this kind is added (e.g. 'polyol', 'fortificant')"
     )
-    at_least_percent_reference: float | None = Field(
+    at_least_percent_reference: Number | None = Field(
         None, description="shown when per 100 g it reaches this % of its reference value"
     )
-    at_least_per_100g: float | None = Field(None, description="shown when per 100 g it reaches this amount")
+    at_least_per_100g: Number | None = Field(None, description="shown when per 100 g it reaches this amount")
     reference_basis: Literal["per_100g", "per_100ml", "per_container_if_single"] = Field(
         "per_100g",
         description="basis of at_least_percent_reference: per 100 g, per 100 ml (needs the density), or per "
@@ -183,13 +184,13 @@ class PanelLayout(Strict):
     """
 
     style: Literal["boxed", "table"] = Field("table", description="boxed: framed facts box; table: ruled table")
-    width_mm: float = Field(80, gt=30, le=200, description="narrowest width; the panel grows to fit its rows")
-    max_width_mm: float = Field(120, gt=30, le=250, description="widest the panel may grow before labels wrap")
-    title_size_pt: float = Field(11, gt=5, le=40)
+    width_mm: Number = Field(80, gt=30, le=200, description="narrowest width; the panel grows to fit its rows")
+    max_width_mm: Number = Field(120, gt=30, le=250, description="widest the panel may grow before labels wrap")
+    title_size_pt: Number = Field(11, gt=5, le=40)
     title_second: str | None = Field(None, description="the title in the second official language, stacked below")
-    body_size_pt: float = Field(7.5, gt=5, le=14)
+    body_size_pt: Number = Field(7.5, gt=5, le=14)
     energy_large: bool = Field(False, description="print the first energy row large (as in a facts box)")
-    energy_size_factor: float = Field(1.9, ge=1, le=3, description="size of the large energy row, x body size")
+    energy_size_factor: Number = Field(1.9, ge=1, le=3, description="size of the large energy row, x body size")
     energy_amount: Literal["right", "after_label"] = Field(
         "right", description="large energy row: figure right-aligned, or right after the label"
     )
@@ -199,11 +200,11 @@ class PanelLayout(Strict):
     heavy_rule_after: list[str] = Field(
         default_factory=list, description="nutrient keys after which a heavy rule is drawn"
     )
-    heavy_rule_pt: float = Field(2.5, gt=0, le=12, description="weight of a heavy rule")
+    heavy_rule_pt: Number = Field(2.5, gt=0, le=12, description="weight of a heavy rule")
     no_rule_after: list[str] = Field(
         default_factory=list, description="nutrient keys after which no rule is drawn (rows grouped together)"
     )
-    rule_before_footnotes_pt: float | None = Field(None, description="weight of the rule above the footnotes")
+    rule_before_footnotes_pt: Number | None = Field(None, description="weight of the rule above the footnotes")
     serving_lines_on_top: bool = Field(False, description="servings per container and serving size above the rows")
     serving_style: Literal["label_and_amount", "per_line"] = Field(
         "label_and_amount",
@@ -216,7 +217,7 @@ class PanelLayout(Strict):
         description="language code of the second serving line; the household measure is printed only when the "
         "formula gives it in that language too (serving.household_names)",
     )
-    serving_rule_pt: float | None = Field(None, description="rule under the serving lines (default 4 boxed, 1 table)")
+    serving_rule_pt: Number | None = Field(None, description="rule under the serving lines (default 4 boxed, 1 table)")
     serving_note: str | None = Field(
         None, description="a review note printed under the panel about the serving declaration"
     )
@@ -338,9 +339,26 @@ class RulePack(Strict):
             raise ValueError("; ".join(errs))
         return self
 
+    _folder: str | None = PrivateAttr(None)  # the pack folder it was loaded from (for its sibling packs)
+    _energy_root: str | None = PrivateAttr(None)  # rules folder whose energy/ holds its factor sets
+
+    @property
+    def energy_root(self) -> str | None:
+        """The rules folder (holding ``energy/``) the pack's factor sets come from; None: the built-in rules."""
+        return self._energy_root
+
     @property
     def market(self) -> str:
         return self.pack.market
+
+    def categories(self) -> set[str]:
+        """Product categories this pack knows: reference amounts and front-of-pack kinds."""
+        out = set(self.servings.reference_amounts or {})
+        for fop in self.front_of_pack:
+            out |= set(fop.exempt_kinds)
+            for t in fop.thresholds or []:
+                out |= {str(c) for c in t.get("categories", [])}
+        return out
 
 
 def packs_dir(folder: str | Path | None = None) -> Path:
@@ -363,8 +381,10 @@ def load_pack_file(path: str | Path, rules_root: str | Path | None = None) -> Ru
     except ValidationError as exc:
         raise RuleError(pydantic_problems(exc, loaded)) from None
     root = Path(rules_root) if rules_root else Path(path).resolve().parent.parent
+    pack._energy_root = str(root.resolve()) if (root / "energy").is_dir() else None
     try:
-        load_factor_set(pack.panel.energy_factor_set, str(root) if (root / "energy").is_dir() else None)
+        for ident in (pack.panel.energy_factor_set, *pack.panel.energy_factor_sets_allowed, "available"):
+            load_factor_set(ident, pack.energy_root)
     except (RuleError, UnknownNameError) as exc:
         raise RuleError(
             Problem(
@@ -394,6 +414,7 @@ def _load_all(folder: str) -> tuple[dict[str, RulePack], tuple]:
             continue
         if p.market in packs:
             problems.add(f"market '{p.market}' is defined twice", file=str(f))
+        p._folder = folder
         packs[p.market] = p
     return packs, tuple(problems.problems)
 
@@ -428,3 +449,50 @@ def get_packs(codes: list[str], folder: str | Path | None = None) -> list[RulePa
             )
         out.append(packs[code])
     return out
+
+
+def check_formula_against_packs(f, packs: list[RulePack]) -> None:
+    """What a formula says about markets must name things the rule packs know: each key of
+    ``energy_methods`` a market with a pack, ``category`` a category some pack knows."""
+    siblings: dict[str, RulePack] = {p.market: p for p in packs}
+    for folder in {p._folder for p in packs if p._folder}:
+        siblings.update(_load_all(folder)[0])
+    problems = ProblemList()
+    kind = f.kind
+    for m in (f.header.energy_methods or {}) if siblings else ():
+        if m not in siblings:
+            near = difflib.get_close_matches(m, list(siblings), n=1)
+            problems.add(
+                f"energy_methods names market '{m}', which has no rule pack",
+                file=f.file,
+                field=f"{kind}.energy_methods.{m}",
+                fix=(f"did you mean '{near[0]}'? " if near else "") + f"markets: {', '.join(sorted(siblings))}",
+            )
+    cat = f.header.category
+    known = set().union(*(p.categories() for p in siblings.values())) if siblings else set()
+    if cat is not None and known and cat not in known:
+        near = difflib.get_close_matches(cat, sorted(known), n=3)
+        problems.add(
+            f"category '{cat}' is not known to any market's rule pack",
+            file=f.file,
+            field=f"{kind}.category",
+            fix=(
+                f"did you mean {', '.join(near)}?" if near else "see 'labelcalc rules show MARKET' for the categories"
+            ),
+        )
+    if problems.problems:
+        _add_lines(problems.problems, f.file)
+    problems.raise_if_any(InputError)
+
+
+def _add_lines(problems: list[Problem], file: str) -> None:
+    """Lines of fields in a formula file (read again only when there is a problem to report)."""
+    if not file.lower().endswith((".yaml", ".yml")) or not Path(file).is_file():
+        return
+    try:
+        loaded = load_yaml(file)
+    except (InputError, OSError):
+        return
+    for p in problems:
+        if p.field and p.line is None:
+            p.line = loaded.line_of(tuple(p.field.split(".")))

@@ -11,6 +11,7 @@ from typing import Literal
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
 from labelcalc.formulation.energy import Confidence
+from labelcalc.intake.quantities import Number
 
 ClaimBasis = Literal[
     "per_reference_amount",
@@ -39,8 +40,10 @@ class Condition(Strict):
     quantity: str
     basis: ClaimBasis
     op: Literal["<", "<=", ">", ">="]
-    value: float
-    kcal_per_g: float | None = Field(None, description="for percent_energy: the energy factor of the quantity [kcal/g]")
+    value: Number
+    kcal_per_g: Number | None = Field(
+        None, description="for percent_energy: the energy factor of the quantity [kcal/g]"
+    )
     versus_reference: Literal["reduction_percent", "increase_percent", "reduction_absolute"] | None = None
     note: str | None = None
 
@@ -117,8 +120,8 @@ class StatementTrigger(Strict):
     header_flag: Literal["packed_in_protective_atmosphere"] | None = Field(
         None, description="the formula's header sets this flag"
     )
-    at_least: float | None = None
-    above: float | None = None
+    at_least: Number | None = None
+    above: Number | None = None
     present: bool | None = Field(None, description="true: any amount above zero")
     with_claim: bool | None = Field(None, description="only when a claim is made (or eligible)")
     conditions: list[Condition] = Field(default_factory=list, description="with with_claim: any of these conditions")
@@ -140,7 +143,7 @@ class Compensation(Strict):
     """Amounts a market requires to be added per gram of a component (e.g. vitamins per g of a non-absorbed lipid)."""
 
     per_gram_of: str
-    required: dict[str, float] = Field(description="component -> amount per gram, in the component's own unit")
+    required: dict[str, Number] = Field(description="component -> amount per gram, in the component's own unit")
     from_kinds: list[str] = Field(
         default_factory=lambda: ["fortificant"], description="ingredient kinds that count as added"
     )
@@ -157,7 +160,7 @@ class Statement(Strict):
     caution: str | None = None
     placement: str | None = None
     compensation: Compensation | None = None
-    daily_intake_g: float | None = Field(
+    daily_intake_g: Number | None = Field(
         None, description="intake per day that triggers the statement (for a servings-to-reach figure)"
     )
     citation: str = Field(min_length=3)
@@ -167,7 +170,7 @@ class Statement(Strict):
 class AllergenEntry(Strict):
     name: str = Field(description="the name the market prescribes in the statement")
     from_keys: list[str] = Field(description="library allergen keys that map to this entry")
-    threshold_mg_per_kg: float | None = Field(None, description="declared only from this level (sulphites)")
+    threshold_mg_per_kg: Number | None = Field(None, description="declared only from this level (sulphites)")
     threshold_inclusive: bool = Field(True, description="true: declared at the threshold; false: only above it")
     component: str | None = Field(None, description="component holding the amount for a threshold (e.g. sulphites)")
     name_species: bool = Field(False, description="the specific kind must be named (e.g. the tree nut)")
@@ -230,7 +233,7 @@ class IngredientListRule(Strict):
     water: Literal["as_used", "finished_product"] = Field(
         "as_used", description="finished_product: added water by its weight in the finished product"
     )
-    water_omit_up_to_percent: float | None = Field(
+    water_omit_up_to_percent: Number | None = Field(
         None, description="added water at or below this % of the finished product need not be listed"
     )
     compound: Literal["components_in_parentheses"] = "components_in_parentheses"
@@ -240,9 +243,9 @@ class IngredientListRule(Strict):
 
 
 class FopBand(Strict):
-    low_up_to: float = Field(description="per 100 g: low at or below this")
-    high_above: float = Field(description="per 100 g: high above this")
-    portion_high_above: float | None = Field(None, description="per portion: high above this")
+    low_up_to: Number = Field(description="per 100 g: low at or below this")
+    high_above: Number = Field(description="per 100 g: high above this")
+    portion_high_above: Number | None = Field(None, description="per portion: high above this")
     unit: str
 
 
@@ -252,10 +255,10 @@ class FrontOfPack(Strict):
     kind: Literal["colour_bands", "high_in_symbol"]
     nutrients: dict[str, FopBand] | None = None
     liquid_nutrients: dict[str, FopBand] | None = None
-    portion_rule_above_g: float | None = Field(
+    portion_rule_above_g: Number | None = Field(
         None, description="foods: per-portion limits apply above this portion [g]"
     )
-    liquid_portion_rule_above_ml: float | None = Field(
+    liquid_portion_rule_above_ml: Number | None = Field(
         None, description="drinks (liquid_nutrients): per-portion limits apply above this portion [ml]"
     )
     high_in: dict[str, str] | None = Field(None, description="nutrient -> reference value key (high_in_symbol)")
@@ -270,11 +273,11 @@ class FrontOfPack(Strict):
 class ToleranceBand(Strict):
     """Allowed deviation of an analysed value from the declared one, for declared amounts in a range."""
 
-    below: float | None = Field(None, description="band holds when the declared value (per 100 g) is below this")
-    minus: float | None = Field(None, ge=0, description="allowed shortfall, absolute, in the nutrient's unit")
-    plus: float | None = Field(None, ge=0, description="allowed excess, absolute")
-    minus_percent: float | None = Field(None, ge=0)
-    plus_percent: float | None = Field(None, ge=0)
+    below: Number | None = Field(None, description="band holds when the declared value (per 100 g) is below this")
+    minus: Number | None = Field(None, ge=0, description="allowed shortfall, absolute, in the nutrient's unit")
+    plus: Number | None = Field(None, ge=0, description="allowed excess, absolute")
+    minus_percent: Number | None = Field(None, ge=0)
+    plus_percent: Number | None = Field(None, ge=0)
 
 
 class ComplianceRule(Strict):
@@ -292,8 +295,8 @@ class ComplianceRule(Strict):
     )
     basis: Literal["per_100g", "per_serving"] = "per_100g"
     compare_with: Literal["declared", "unrounded"] = "declared"
-    min_percent_of_declared: float | None = None
-    max_percent_of_declared: float | None = None
+    min_percent_of_declared: Number | None = None
+    max_percent_of_declared: Number | None = None
     bands: list[ToleranceBand] = Field(default_factory=list)
     uncertainty: Literal["included", "widens"] = Field(
         "included",

@@ -9,19 +9,19 @@ from __future__ import annotations
 
 import hashlib
 import json
+import traceback
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from labelcalc import __version__
 from labelcalc.errors import InputError, LabelError, Problem, display_path
-from labelcalc.files import atomic_write
-from labelcalc.formulation.composition import compose_many
+from labelcalc.formulation.composition import compose, compose_many
+from labelcalc.intake.catalogue import classify, other_files
 from labelcalc.intake.formula import Formula, FormulaIndex, build_formula, load_formula
 from labelcalc.intake.library import Library, load_library
 from labelcalc.intake.sources import index_for, sheet_products
 from labelcalc.labelling.engine import LabelEngine
-from labelcalc.labelling.rulepack import RulePack, get_packs
+from labelcalc.labelling.rulepack import RulePack, check_formula_against_packs, get_packs
 from labelcalc.ranges.summary import label_summary
 
 
@@ -43,13 +43,33 @@ class LabelRecord:
 
 
 @dataclass
+class ProductFile:
+    """A product formula file of a range folder, with the id its header gives."""
+
+    path: Path
+    id: str
+
+
+@dataclass
+class ItemError:
+    """A range entry known to fail before any computing: an unreadable file, a duplicate id, a bad sheet row.
+    ``counts`` says whether it stands for a product (counted as failed) or another file (listed only)."""
+
+    product_id: str
+    problems: list[Problem]
+    counts: bool = True
+
+
+@dataclass
 class RangeResult:
     rows: list[dict] = field(default_factory=list)
     errors: list[dict] = field(default_factory=list)
     labels: list[LabelRecord] = field(default_factory=list)
     products_ok: int = 0
     products_failed: int = 0
-    formulas: dict[str, Formula] = field(default_factory=dict)
+    labelled: list[str] = field(default_factory=list)  # ids of the products labelled for every market
+    crashes: list[dict] = field(default_factory=list)  # unexpected errors: product, file, traceback
+    files: list[dict] = field(default_factory=list)  # every file of the source and what became of it
 
     def merge(self, other: RangeResult) -> None:
         self.rows += other.rows
@@ -57,6 +77,8 @@ class RangeResult:
         self.labels += other.labels
         self.products_ok += other.products_ok
         self.products_failed += other.products_failed
+        self.labelled += other.labelled
+        self.crashes += other.crashes
 
 
 def _hash(obj) -> str:
@@ -70,10 +92,14 @@ def ingredient_hash(ing) -> str:
 def rules_hash(pack: RulePack) -> str:
     from labelcalc.formulation.energy import load_factor_set
 
-    return _hash([pack.model_dump(), load_factor_set(pack.panel.energy_factor_set).model_dump()])
+    return _hash([pack.model_dump(), load_factor_set(pack.panel.energy_factor_set, pack.energy_root).model_dump()])
 
 
 def _error_row(product: str, exc: LabelError, market: str = "") -> list[dict]:
+    return _problem_rows(product, exc.problems, market)
+
+
+def _problem_rows(product: str, problems: list[Problem], market: str = "") -> list[dict]:
     return [
         {
             "product_id": product,
@@ -83,70 +109,162 @@ def _error_row(product: str, exc: LabelError, market: str = "") -> list[dict]:
             "field": p.field or "",
             "message": p.message + (f" — {p.fix}" if p.fix else ""),
         }
-        for p in exc.problems
+        for p in problems
     ]
 
 
-def enumerate_products(source: Path, index: FormulaIndex | None = None) -> list:
-    """Product references of a source: formula file paths, or sheet products (and problems found)."""
+def _crash(res: RangeResult, product: str, file: str, exc: BaseException) -> None:
+    """An unexpected error inside one product: one error row naming product and file, and a crash report entry."""
+    res.errors.append(
+        {
+            "product_id": product,
+            "market": "",
+            "file": file,
+            "line": "",
+            "field": "",
+            "message": f"internal error ({type(exc).__name__}: {exc}) — details in {CRASH_REPORT}; "
+            "please report it with that file",
+        }
+    )
+    res.crashes.append(
+        {
+            "product_id": product,
+            "file": file,
+            "error": f"{type(exc).__name__}: {exc}",
+            "traceback": "".join(traceback.format_exception(exc)),
+        }
+    )
+    res.products_failed += 1
+
+
+CRASH_REPORT = "crash-report.txt"
+
+
+def enumerate_products(
+    source: Path, index: FormulaIndex | None = None, exclude: list[Path] | None = None
+) -> tuple[list, list[dict]]:
+    """The entries of a range source (product files, sheet products, known failures) and the inventory of its
+    files: every file of a folder with its kind and id (files in ``exclude`` folders, such as the run's own
+    output folder, left out), or the products of a sheet."""
     if source.is_dir():
         index = index or FormulaIndex([source])
-        dup = [
-            (
-                "__problem__",
-                Problem(
-                    f"id '{i}' is defined twice (also in {display_path(a)}); this file is skipped",
-                    file=display_path(b),
-                    field="product.id",
-                ),
-            )
-            for i, a, b in index.duplicates
-        ]
-        return list(index.products) + dup
+        items: list = []
+        files = []
+        for e in index.entries:
+            files.append({"file": e.shown, "kind": e.kind, "id": e.id or ""})
+            if e.kind == "error":
+                items.append(ItemError(e.path.stem, e.problems or []))
+            elif e.id in index.duplicates:
+                items.append(
+                    ItemError(
+                        e.id or "",
+                        [index.duplicate_problem(e.id or "", e.shown, field=f"{e.kind}.id")],
+                        counts=e.kind == "product",
+                    )
+                )
+            elif e.kind == "product":
+                items.append(ProductFile(e.path, e.id or ""))
+        skip = [x.resolve() for x in exclude or []]
+        for f in other_files(source):
+            if any(f.resolve().is_relative_to(x) for x in skip):
+                continue
+            files.append({"file": display_path(f) or str(f), "kind": "not read", "id": ""})
+        return items, files
     if source.suffix.lower() in (".csv", ".xlsx"):
-        items, problems = sheet_products(source)
-        return items + [("__problem__", p) for p in problems]
+        products, problems = sheet_products(source)
+        shown = display_path(source) or str(source)
+        files = [{"file": shown, "kind": "product (sheet)", "id": p.product_id} for p in products]
+        return products + [ItemError("", [p], counts=False) for p in problems], files
     if source.suffix.lower() in (".yaml", ".yml"):
-        return [source]
+        entry = classify(source)
+        files = [{"file": entry.shown, "kind": entry.kind, "id": entry.id or ""}]
+        if entry.kind == "error":
+            return [ItemError(source.stem, entry.problems or [])], files
+        return ([ProductFile(source, entry.id or "")] if entry.kind == "product" else []), files
     raise InputError(
         Problem("a range source is a folder of formula files, a .csv or an .xlsx file", file=display_path(source))
     )
 
 
+def _item_ident(it) -> tuple[str, str]:
+    if isinstance(it, ProductFile):
+        return it.id, display_path(it.path) or str(it.path)
+    return it.product_id, it.file
+
+
 def run_chunk(
     items: list, library: Library, packs: list[RulePack], index: FormulaIndex, with_labels: bool = True
 ) -> RangeResult:
-    """Load, compose, declare and assess a list of products (one process's share)."""
+    """Load, compose, declare and assess a list of products (one process's share).
+
+    Nothing here fails the whole share: bad input becomes the product's error rows, and an unexpected
+    exception becomes one error row naming the product and file plus a crash report entry."""
     res = RangeResult()
     cache: dict = {}
     formulas: list[Formula] = []
     for it in items:
-        if isinstance(it, tuple) and it and it[0] == "__problem__":
-            res.errors += _error_row("", InputError(it[1]))
+        if isinstance(it, ItemError):
+            res.errors += _problem_rows(it.product_id, it.problems)
+            res.products_failed += int(it.counts)
             continue
+        pid, file = _item_ident(it)
         try:
-            if isinstance(it, Path):
-                f = load_formula(it, library, _cache=cache, _index=index, fast=True)
+            if isinstance(it, ProductFile):
+                f = load_formula(it.path, library, _cache=cache, _index=index, fast=True)
             else:
                 if "__error__" in it.data:
                     raise it.data["__error__"]
                 f = build_formula(it.data, it.file, it.lines, library, index, cache)
+            check_formula_against_packs(f, packs)
         except LabelError as exc:
-            pid = it.stem if isinstance(it, Path) else it.product_id
             res.errors += _error_row(pid, exc)
             res.products_failed += 1
             continue
+        except Exception as exc:  # noqa: BLE001 - one product's crash must not lose the range
+            _crash(res, pid, file, exc)
+            continue
         formulas.append(f)
+    try:
+        res.merge(_label(formulas, library, packs, index, with_labels))
+    except Exception:  # noqa: BLE001 - retry one by one so only the product that crashes is lost
+        for f in formulas:
+            try:
+                res.merge(_label([f], library, packs, index, with_labels))
+            except Exception as exc:  # noqa: BLE001
+                _crash(res, f.id, f.file, exc)
+    return res
+
+
+def _with_lines(f: Formula, exc: LabelError, library: Library, index: FormulaIndex) -> LabelError:
+    """A composition error of a formula loaded without line tracking, found again with its lines."""
+    if all(p.line for p in exc.problems) or not f.file.endswith((".yaml", ".yml", ".YAML", ".YML")):
+        return exc
+    try:
+        again = load_formula(Path(f.file), library, _index=index)
+        compose(again, library)
+    except LabelError as exc2:
+        return exc2
+    except (OSError, ValueError):  # pragma: no cover - the file changed during the run
+        return exc
+    return exc
+
+
+def _label(
+    formulas: list[Formula], library: Library, packs: list[RulePack], index: FormulaIndex, with_labels: bool
+) -> RangeResult:
+    """Compose and label formulas that loaded; every failure is a product's error row."""
+    res = RangeResult()
     comps, failed = compose_many(formulas, library)
     for fid, exc in failed.items():
-        res.errors += _error_row(fid, exc)
+        f = next((g for g in formulas if g.id == fid), None)
+        res.errors += _error_row(fid, _with_lines(f, exc, library, index) if f else exc)
         res.products_failed += 1
     rhash = {p.market: rules_hash(p) for p in packs}
     ihash: dict[str, str] = {i.id: ingredient_hash(i) for i in library.ingredients.values()}
     labelled = [c for f in formulas if f.id in comps for c in comps[f.id]]
-    failed_ids: set[str] = set()
+    failed_ids: set[tuple[str, str]] = set()
     for p in packs:
-        eng = LabelEngine(p, labelled)
+        eng = LabelEngine(p, labelled)  # the labelling engine: called at this one place
         for c, exc in eng.errors:
             if (c.formula.id, p.market) not in failed_ids:
                 res.errors += _error_row(c.formula.id, exc, p.market)
@@ -178,6 +296,7 @@ def run_chunk(
                 res.products_failed += 1
             else:
                 res.products_ok += 1
+                res.labelled.append(f.id)
     return res
 
 
@@ -185,16 +304,13 @@ _WORKER_STATE: dict = {}
 
 
 def _worker(args):
-    """One process's share of a range; library, packs and sub-formula index are loaded once per process."""
-    items, lib_path, markets, rules, index_folders, with_labels = args
-    key = (lib_path, tuple(markets), rules, tuple(index_folders))
+    """One process's share of a range; library, packs and sub-formula index are loaded once per process
+    (the index comes from the main process, so no worker reads the whole folder again)."""
+    items, lib_path, markets, rules, index, with_labels = args
+    key = (lib_path, tuple(markets), rules, tuple(sorted(index.paths.items())))
     if key not in _WORKER_STATE:
         _WORKER_STATE.clear()
-        _WORKER_STATE[key] = (
-            load_library(lib_path),
-            get_packs(markets, rules),
-            FormulaIndex([Path(x) for x in index_folders]),
-        )
+        _WORKER_STATE[key] = (load_library(lib_path), get_packs(markets, rules), index)
     library, packs, index = _WORKER_STATE[key]
     return run_chunk(items, library, packs, index, with_labels)
 
@@ -209,14 +325,18 @@ def run_range(
     progress=None,
     chunk_size: int = 200,
     with_labels: bool = True,
+    exclude: list[Path] | None = None,
 ) -> RangeResult:
-    """Run the whole range.  ``progress(done, total)`` is called as products finish."""
+    """Run the whole range.  ``progress(done, total)`` is called as products finish; ``exclude``: folders whose
+    files are not the range's (the output folder when it lies inside the source)."""
     library = load_library(library_path)
     packs = get_packs(markets, rules)
     index = index_for(source)
-    items = enumerate_products(source, index)
+    items, inventory = enumerate_products(source, index, exclude)
     total = len(items)
-    index_folders = [str(source if source.is_dir() else source.parent)]
+    lookup = index.lookup_only()
+    if jobs > 1:
+        index.forget_parsed()  # workers parse their own share
     if jobs > 1:  # fewer, larger chunks: each carries its share of the table operations
         chunk_size = max(chunk_size, -(-total // (jobs * 4)))
     chunks = [items[i : i + chunk_size] for i in range(0, total, chunk_size)] or [[]]
@@ -234,85 +354,44 @@ def run_range(
         with ProcessPoolExecutor(max_workers=jobs) as ex:
             futs = {
                 ex.submit(
-                    _worker, (ch, str(library_path), markets, str(rules) if rules else None, index_folders, with_labels)
-                ): len(ch)
+                    _worker, (ch, str(library_path), markets, str(rules) if rules else None, lookup, with_labels)
+                ): ch
                 for ch in chunks
             }
             for fut in as_completed(futs):
-                result.merge(fut.result())
-                done += futs[fut]
+                try:
+                    result.merge(fut.result())
+                except Exception as exc:  # noqa: BLE001 - a worker process died: its products are reported
+                    for it in futs[fut]:
+                        if not isinstance(it, ItemError):
+                            _crash(result, *_item_ident(it), exc)
+                done += len(futs[fut])
                 if progress:
                     progress(done, total)
     result.rows.sort(key=lambda r: (r["product_id"], r["market"], r["scenario"]))
+    result.errors.sort(key=lambda e: (e["product_id"], e["market"], e["file"], str(e["line"]), e["message"]))
+    result.crashes.sort(key=lambda c: (c["product_id"], c["file"]))
+    result.files = _outcomes(inventory, result)
     return result
 
 
-# ------------------------------------------------------------------ writing
-
-
-def _columns(rows: list[dict]) -> list[str]:
-    cols: list[str] = []
-    seen = set()
-    for r in rows:
-        for k in r:
-            if k not in seen:
-                seen.add(k)
-                cols.append(k)
-    return cols
-
-
-def write_csv(path: Path, rows: list[dict], columns: list[str] | None = None) -> None:
-    import csv
-
-    cols = columns or _columns(rows)
-
-    def w(tmp: Path):
-        with tmp.open("w", newline="", encoding="utf-8") as fh:
-            wr = csv.DictWriter(fh, fieldnames=cols, extrasaction="ignore")
-            wr.writeheader()
-            for r in rows:
-                wr.writerow({k: ("" if v is None else v) for k, v in r.items()})
-
-    atomic_write(path, w)
-
-
-def write_json(path: Path, doc) -> None:
-    def w(tmp: Path):
-        with tmp.open("w", encoding="utf-8") as fh:  # streamed: a large range never sits in memory as one string
-            for chunk in json.JSONEncoder(indent=1, ensure_ascii=False, default=str).iterencode(doc):
-                fh.write(chunk)
-
-    atomic_write(path, w)
-
-
-ERROR_COLUMNS = ["product_id", "market", "file", "line", "field", "message"]
-
-
-def write_outputs(
-    out: Path, result: RangeResult, changes: list[dict] | None = None, packs: dict | None = None
-) -> list[Path]:
-    """Write the summary tables; ``packs`` (market -> pack) names the workbook's columns as each pack prints them."""
-    from labelcalc.outputs.xlsxout import write_summary_workbook
-
-    out.mkdir(parents=True, exist_ok=True)
-    files = [out / "summary.csv", out / "summary.xlsx", out / "summary.json", out / "errors.csv"]
-    write_csv(files[0], result.rows)
-    atomic_write(
-        files[1],
-        lambda tmp: write_summary_workbook(tmp, result.rows, result.errors, changes, packs, ERROR_COLUMNS),
-    )
-    write_json(
-        files[2],
-        {
-            "tool_version": __version__,
-            "summary": result.rows,
-            "errors": result.errors,
-            "changes": changes or [],
-            "draft_notice": "DRAFT — verify against current local regulation.",
-        },
-    )
-    write_csv(files[3], result.errors, ERROR_COLUMNS)
-    if changes is not None:
-        files.append(out / "changes.csv")
-        write_csv(files[-1], changes, ["status", "product_id", "market", "scenario", "what_moved", "why"])
-    return files
+def _outcomes(inventory: list[dict], result: RangeResult) -> list[dict]:
+    """What became of every file of the source: labelled, failed (see errors.csv) or a recognised non-product."""
+    ok = set(result.labelled)
+    failed_files = {e["file"] for e in result.errors}
+    failed_ids = {e["product_id"] for e in result.errors}
+    out = []
+    for f in inventory:
+        kind = f["kind"]
+        if kind == "error":
+            outcome = "error (see errors.csv)"
+        elif kind.startswith("product"):
+            outcome = "labelled" if f["id"] in ok else "failed (see errors.csv)"
+        elif kind == "subformula":
+            outcome = "error (see errors.csv)" if f["id"] in failed_ids and f["file"] in failed_files else "sub-formula"
+        elif kind == "not read":
+            outcome = "not read: not a YAML file"
+        else:
+            outcome = f"not a product: {kind}"
+        out.append({**f, "outcome": outcome})
+    return out

@@ -5,6 +5,11 @@ formula, of each ingredient library entry used and of the rule pack, the tool
 version, the declared values, statements, allergens and claims.  A new run
 is compared with it: new, unchanged or changed labels, and for changed ones
 what moved and why (formula, ingredient or rule).
+
+The file carries a schema version (SQLite ``user_version``). A range run holds the register's write lock from
+its start until its outputs are in place (:meth:`Register.lock`, :meth:`Register.record`), so a second run on
+the same register waits up to :data:`BUSY_SECONDS` and then stops with a clear message instead of losing an
+update, and a run that is interrupted records nothing: its rerun reports the same changes.
 """
 
 from __future__ import annotations
@@ -15,7 +20,11 @@ from datetime import UTC, datetime
 from pathlib import Path
 
 from labelcalc import __version__
+from labelcalc.errors import InputError, Problem, display_path
 from labelcalc.ranges.rangerun import LabelRecord
+
+SCHEMA_VERSION = 1
+BUSY_SECONDS = 10.0
 
 SCHEMA = """
 CREATE TABLE IF NOT EXISTS labels (
@@ -38,13 +47,55 @@ CREATE TABLE IF NOT EXISTS labels (
 
 
 class Register:
-    def __init__(self, path: Path):
+    def __init__(self, path: Path, *, create: bool = True):
         self.path = Path(path)
+        shown = display_path(self.path) or str(self.path)
+        if not create and not self.path.exists():
+            raise InputError(
+                Problem("no label register here", file=shown, fix="run 'labelcalc range' first or pass --db")
+            )
         self.path.parent.mkdir(parents=True, exist_ok=True)
-        self.db = sqlite3.connect(self.path)
-        self.db.executescript(SCHEMA)
+        try:
+            self.db = sqlite3.connect(self.path, timeout=BUSY_SECONDS, isolation_level=None)
+            version = self.db.execute("PRAGMA user_version").fetchone()[0]
+            if version > SCHEMA_VERSION:
+                self.db.close()
+                raise InputError(
+                    Problem(
+                        f"label register has schema version {version}; this labelcalc reads up to {SCHEMA_VERSION}",
+                        file=shown,
+                        fix="use a newer labelcalc, or another --register file",
+                    )
+                )
+            tables = {r[0] for r in self.db.execute("SELECT name FROM sqlite_master WHERE type='table'")}
+            if version < SCHEMA_VERSION or "labels" not in tables:
+                self.db.executescript(SCHEMA + f"PRAGMA user_version = {SCHEMA_VERSION};")
+        except sqlite3.OperationalError as exc:
+            raise _sqlite_problem(exc, shown) from None
+        except sqlite3.DatabaseError as exc:
+            raise InputError(
+                Problem(
+                    f"not a label register ({exc})",
+                    file=shown,
+                    fix="pass another --register file, or move this one away",
+                )
+            ) from None
+        self._shown = shown
+        self._locked = False
+
+    def lock(self) -> None:
+        """Take the register's write lock for a run (waits up to BUSY_SECONDS for another run)."""
+        try:
+            self.db.execute("BEGIN IMMEDIATE")
+        except sqlite3.OperationalError as exc:
+            raise _sqlite_problem(exc, self._shown) from None
+        self._locked = True
 
     def close(self) -> None:
+        """Close; a lock still held (the run did not reach :meth:`record`) is released with nothing written."""
+        if self._locked:
+            self.db.execute("ROLLBACK")
+            self._locked = False
         self.db.close()
 
     def previous(self) -> dict[tuple[str, str, str], dict]:
@@ -59,10 +110,30 @@ class Register:
         return out
 
     def compare_and_record(self, labels: list[LabelRecord], *, record: bool = True) -> list[dict]:
-        """Changes against the register, then the register updated to this run."""
+        """Changes against the register, then (with ``record``) the register updated to this run."""
+        changes = self.compare(labels)
+        if record:
+            self.record(labels)
+        return changes
+
+    def compare(self, labels: list[LabelRecord], failed_files: set[str] | None = None) -> list[dict]:
+        """What this run's labels change against the register: new, changed (what moved, why) or unchanged;
+        and "not labelled" for a recorded label of a file that failed in this run (its record is kept)."""
         prev = self.previous()
         changes = []
-        now = datetime.now(UTC).isoformat(timespec="seconds")
+        now_keys = {(lab.product_id, lab.market, lab.scenario) for lab in labels}
+        for key, old in sorted(prev.items()):
+            if key not in now_keys and old["file"] in (failed_files or set()):
+                changes.append(
+                    {
+                        "status": "not labelled",
+                        "product_id": key[0],
+                        "market": key[1],
+                        "scenario": key[2],
+                        "what_moved": "",
+                        "why": "the file failed in this run (see errors.csv); the register keeps its last label",
+                    }
+                )
         for lab in labels:
             key = (lab.product_id, lab.market, lab.scenario)
             old = prev.get(key)
@@ -90,30 +161,38 @@ class Register:
                         "why": "; ".join(why) if moved or why else "",
                     }
                 )
-        if record:
-            with self.db:
-                self.db.executemany(
-                    "INSERT OR REPLACE INTO labels VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?)",
-                    [
-                        (
-                            lab.product_id,
-                            lab.market,
-                            lab.scenario,
-                            lab.formula_hash,
-                            json.dumps(lab.ingredient_hashes, sort_keys=True),
-                            lab.rules_hash,
-                            __version__,
-                            json.dumps(lab.declared, sort_keys=True),
-                            json.dumps(lab.statements),
-                            json.dumps(lab.allergens),
-                            json.dumps(lab.claims),
-                            lab.file,
-                            now,
-                        )
-                        for lab in labels
-                    ],
-                )
         return changes
+
+    def record(self, labels: list[LabelRecord]) -> None:
+        """Write this run's labels and release the lock (call once the run's outputs are in place)."""
+        now = datetime.now(UTC).isoformat(timespec="seconds")
+        rows = [
+            (
+                lab.product_id,
+                lab.market,
+                lab.scenario,
+                lab.formula_hash,
+                json.dumps(lab.ingredient_hashes, sort_keys=True),
+                lab.rules_hash,
+                __version__,
+                json.dumps(lab.declared, sort_keys=True),
+                json.dumps(lab.statements),
+                json.dumps(lab.allergens),
+                json.dumps(lab.claims),
+                lab.file,
+                now,
+            )
+            for lab in labels
+        ]
+        try:
+            if not self._locked:
+                self.lock()
+            self.db.executemany("INSERT OR REPLACE INTO labels VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?)", rows)
+            self.db.execute("COMMIT")
+        except sqlite3.OperationalError as exc:
+            raise _sqlite_problem(exc, self._shown) from None
+        finally:
+            self._locked = False
 
     def rows(self) -> list[dict]:
         out = []
@@ -168,3 +247,15 @@ def describe_why(old: dict, lab: LabelRecord) -> list[str]:
     if old["rules_hash"] != lab.rules_hash:
         why.append("rule pack changed")
     return why
+
+
+def _sqlite_problem(exc: sqlite3.OperationalError, shown: str) -> InputError:
+    if "locked" in str(exc) or "busy" in str(exc):
+        return InputError(
+            Problem(
+                f"label register is in use by another run (waited {BUSY_SECONDS:g} s)",
+                file=shown,
+                fix="wait for that run to finish, or pass another --register file",
+            )
+        )
+    return InputError(Problem(f"cannot use the label register: {exc}", file=shown))

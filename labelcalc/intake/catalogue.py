@@ -1,0 +1,204 @@
+"""What every YAML file in a folder tree is: a product, a sub-formula, a recognised non-product, or an error.
+
+Range runs and sub-formula look-ups both start here.  Each file is parsed as YAML (never peeked at line by
+line), so a quoted key, an anchor, a flow mapping or an id far down the header are read as YAML reads them.
+A file is then one of:
+
+* a **formula**: top-level ``product:`` or ``subformula:`` with an ``id``;
+* a recognised **non-product**: an ingredient library (``ingredients:``), a price list (``prices:``), a lab
+  certificate (``certificate:``), a market rule pack (``pack:``), an energy factor set (``factor_set:``) or a
+  food-composition table mapping (``database:``);
+* an **error**: unreadable, not UTF-8, not YAML, empty, no id, or a first key that names nothing we read
+  (a misspelling gets a suggestion).
+
+An id used by more than one formula file is a *duplicate*: none of the files is picked; each becomes an error,
+and so does every formula that refers to the id.
+"""
+
+from __future__ import annotations
+
+import difflib
+from dataclasses import dataclass
+from pathlib import Path
+
+from labelcalc.errors import InputError, Problem, display_path
+from labelcalc.intake.yamlsafe import load_yaml
+
+YAML_SUFFIXES = (".yaml", ".yml")
+
+#: top-level key -> what a file with it is (non-products a range folder may hold)
+NON_PRODUCTS = {
+    "ingredients": "ingredient library",
+    "prices": "price list",
+    "certificate": "lab certificate",
+    "pack": "rule pack",
+    "factor_set": "energy factor set",
+    "database": "food-table mapping",
+}
+FORMULA_KEYS = ("product", "subformula")
+
+
+@dataclass
+class CatalogueEntry:
+    """One YAML file: its kind ('product', 'subformula', a non-product kind or 'error') and id if any."""
+
+    path: Path
+    kind: str
+    id: str | None = None
+    problems: list[Problem] | None = None
+
+    @property
+    def shown(self) -> str:
+        return display_path(self.path) or str(self.path)
+
+
+def other_files(folder: Path) -> list[Path]:
+    """Files under ``folder`` that are not YAML (and not hidden, nor inside a hidden folder), in path order:
+    a range lists them as not read, so a product saved as ``.yml~`` or ``.json`` is never silently missed."""
+    return sorted(
+        f
+        for f in folder.rglob("*")
+        if f.is_file()
+        and f.suffix.lower() not in YAML_SUFFIXES
+        and not any(part.startswith(".") for part in f.relative_to(folder).parts)
+    )
+
+
+def yaml_files(folder: Path) -> list[Path]:
+    """Every YAML file under ``folder`` (any case of the extension), in path order."""
+    return sorted(f for f in folder.rglob("*") if f.suffix.lower() in YAML_SUFFIXES and f.is_file())
+
+
+def classify(path: Path) -> CatalogueEntry:
+    """Parse one file and say what it is; never raises for bad content."""
+    return _classify(path)[0]
+
+
+def _classify(path: Path) -> tuple[CatalogueEntry, object]:
+    try:
+        data = load_yaml(path, with_lines=False).data
+    except InputError as exc:
+        return CatalogueEntry(path, "error", problems=exc.problems), None
+    return _kind_of(path, data), data
+
+
+def _kind_of(path: Path, data) -> CatalogueEntry:
+    shown = display_path(path) or str(path)
+    if not isinstance(data, dict) or not data:
+        what = "empty" if data is None else "not a mapping"
+        return CatalogueEntry(
+            path,
+            "error",
+            problems=[
+                Problem(
+                    f"not a formula file ({what})",
+                    file=shown,
+                    line=1,
+                    fix="a formula file starts with 'product:' or 'subformula:'",
+                )
+            ],
+        )
+    heads = [k for k in FORMULA_KEYS if k in data]
+    if len(heads) == 1:
+        head = data[heads[0]]
+        ident = head.get("id") if isinstance(head, dict) else None
+        if isinstance(ident, bool) or not isinstance(ident, (str, int)) or not str(ident).strip():
+            return CatalogueEntry(
+                path,
+                "error",
+                problems=[
+                    Problem(
+                        f"'{heads[0]}' has no id",
+                        file=shown,
+                        field=f"{heads[0]}.id",
+                        fix="give the formula a stable id (a word without spaces)",
+                    )
+                ],
+            )
+        return CatalogueEntry(path, heads[0], str(ident))
+    if len(heads) == 2:
+        return CatalogueEntry(
+            path,
+            "error",
+            problems=[Problem("a formula file has one of 'product:' or 'subformula:', not both", file=shown)],
+        )
+    for key, kind in NON_PRODUCTS.items():
+        if key in data:
+            return CatalogueEntry(path, kind)
+    keys = [str(k) for k in data]
+    known = list(FORMULA_KEYS) + list(NON_PRODUCTS)
+    near = [n for k in keys for n in difflib.get_close_matches(k.strip("\"' "), known, n=1, cutoff=0.6)]
+    return CatalogueEntry(
+        path,
+        "error",
+        problems=[
+            Problem(
+                f"not a formula file: top-level keys {', '.join(repr(k) for k in keys[:5])}",
+                file=shown,
+                line=1,
+                fix=(
+                    f"did you mean '{near[0]}:'?" if near else "a formula file starts with 'product:' or 'subformula:'"
+                ),
+            )
+        ],
+    )
+
+
+class FormulaIndex:
+    """Every YAML file of a set of folders (recursively), classified; formulas found by id.
+
+    ``paths`` and ``kinds`` hold ids used by exactly one formula file; ``duplicates`` maps an id used by
+    several files to all of them; ``products`` lists product files (duplicates included, so each can be
+    reported); ``entries`` is every file with its kind, for accounting."""
+
+    def __init__(self, folders: list[Path], *, keep_products: bool = False):
+        self.entries: list[CatalogueEntry] = []
+        self._parsed: dict[Path, object] = {}  # product files' parsed data, kept for one later load (ranges)
+        self.paths: dict[str, Path] = {}
+        self.kinds: dict[str, str] = {}
+        self.duplicates: dict[str, list[Path]] = {}
+        seen: set[Path] = set()
+        by_id: dict[str, list[CatalogueEntry]] = {}
+        for folder in folders:
+            for f in yaml_files(folder):
+                key = f.resolve()
+                if key in seen:
+                    continue
+                seen.add(key)
+                e, data = _classify(f)
+                self.entries.append(e)
+                if keep_products and e.kind == "product":
+                    self._parsed[f] = data
+                if e.id is not None:
+                    by_id.setdefault(e.id, []).append(e)
+        for ident, es in by_id.items():
+            if len(es) > 1:
+                self.duplicates[ident] = [e.path for e in es]
+            else:
+                self.paths[ident] = es[0].path
+                self.kinds[ident] = es[0].kind
+        self.products: list[Path] = [e.path for e in self.entries if e.kind == "product"]
+
+    def take_parsed(self, path: Path):
+        """The parsed data of a product file read while classifying (once; None if not kept)."""
+        return self._parsed.pop(path, None)
+
+    def forget_parsed(self) -> None:
+        """Drop kept parsed data (when the products are loaded elsewhere, e.g. in worker processes)."""
+        self._parsed.clear()
+
+    def lookup_only(self) -> FormulaIndex:
+        """A copy for finding sub-formulas by id only (no file list), cheap to send to worker processes."""
+        twin = FormulaIndex([])
+        twin.paths, twin.kinds, twin.duplicates = dict(self.paths), dict(self.kinds), dict(self.duplicates)
+        return twin
+
+    def duplicate_problem(self, ident: str, file: str | None = None, **where) -> Problem:
+        """The message for a use (or definition) of an id that several files define."""
+        others = ", ".join(display_path(p) or str(p) for p in self.duplicates[ident])
+        return Problem(
+            f"id '{ident}' is defined by {len(self.duplicates[ident])} files ({others}); none of them is used",
+            file=file,
+            fix="give each formula its own id (or remove the stale copy)",
+            **where,
+        )

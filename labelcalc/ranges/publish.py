@@ -1,0 +1,171 @@
+"""Writing a range run's outputs: all of them appear together, or none do.
+
+Every file of a run is written into a staging folder inside the output folder; when all are written they are
+moved into place (each move an atomic rename on the same file system), and outputs an earlier run wrote but
+this one does not (a ``changes.csv`` or crash report) are removed, so the folder never mixes two runs. A run
+that stops before the moves leaves the previous run's outputs as they were; its staging folder is removed by
+the next run. The label register is updated only after the moves (see ``labelcalc.cli.range_cmd``).
+
+Files are byte-identical for identical input: rows are sorted, JSON keys keep their order, the workbook has
+fixed zip dates, and nothing carries the time of the run.
+"""
+
+from __future__ import annotations
+
+import csv
+import json
+import os
+import platform
+import shutil
+import tempfile
+from collections.abc import Callable
+from pathlib import Path
+
+from labelcalc import __version__
+from labelcalc.files import atomic_write
+from labelcalc.ranges.rangerun import CRASH_REPORT, RangeResult
+
+STAGE_PREFIX = ".labelcalc-stage-"
+#: every name a range run may write at the top of its output folder
+RUN_OUTPUTS = (
+    "summary.csv",
+    "summary.xlsx",
+    "summary.json",
+    "errors.csv",
+    "files.csv",
+    "changes.csv",
+    CRASH_REPORT,
+    "panels",
+)
+ERROR_COLUMNS = ["product_id", "market", "file", "line", "field", "message"]
+FILE_COLUMNS = ["file", "kind", "id", "outcome"]
+CHANGE_COLUMNS = ["status", "product_id", "market", "scenario", "what_moved", "why"]
+
+
+def _columns(rows: list[dict]) -> list[str]:
+    cols: list[str] = []
+    seen = set()
+    for r in rows:
+        for k in r:
+            if k not in seen:
+                seen.add(k)
+                cols.append(k)
+    return cols
+
+
+def write_csv(path: Path, rows: list[dict], columns: list[str] | None = None) -> None:
+    cols = columns or _columns(rows)
+
+    def w(tmp: Path):
+        with tmp.open("w", newline="", encoding="utf-8") as fh:
+            wr = csv.DictWriter(fh, fieldnames=cols, extrasaction="ignore")
+            wr.writeheader()
+            for r in rows:
+                wr.writerow({k: ("" if v is None else v) for k, v in r.items()})
+
+    atomic_write(path, w)
+
+
+def write_json(path: Path, doc) -> None:
+    def w(tmp: Path):
+        with tmp.open("w", encoding="utf-8") as fh:  # streamed: a large range never sits in memory as one string
+            for chunk in json.JSONEncoder(indent=1, ensure_ascii=False, default=str).iterencode(doc):
+                fh.write(chunk)
+
+    atomic_write(path, w)
+
+
+def write_crash_report(path: Path, crashes: list[dict], context: str = "") -> None:
+    """What a developer needs to reproduce an internal error: versions, the product, the file, the traceback."""
+    lines = [
+        "labelcalc crash report — an internal error, not a problem with your input.",
+        "Please send this file (and the input files it names, if you can) to the labelcalc maintainers.",
+        f"labelcalc {__version__}, Python {platform.python_version()}, {platform.system()}",
+    ]
+    if context:
+        lines.append(context)
+    for c in crashes:
+        lines += ["", f"product: {c.get('product_id') or '-'}", f"file: {c.get('file') or '-'}", c["traceback"]]
+    atomic_write(path, lambda tmp: tmp.write_text("\n".join(lines) + "\n", encoding="utf-8"))
+
+
+def write_outputs(
+    out: Path, result: RangeResult, changes: list[dict] | None = None, packs: dict | None = None
+) -> list[Path]:
+    """The run's tables in ``out`` (a staging folder when called through :func:`publish`); ``packs`` (market ->
+    pack) names the workbook's columns as each pack prints them."""
+    from labelcalc.outputs.xlsxout import write_summary_workbook
+
+    out.mkdir(parents=True, exist_ok=True)
+    files = [out / "summary.csv", out / "summary.xlsx", out / "summary.json", out / "errors.csv", out / "files.csv"]
+    write_csv(files[0], result.rows)
+    atomic_write(
+        files[1],
+        lambda tmp: write_summary_workbook(tmp, result.rows, result.errors, changes, packs, ERROR_COLUMNS),
+    )
+    write_json(
+        files[2],
+        {
+            "tool_version": __version__,
+            "summary": result.rows,
+            "errors": result.errors,
+            "files": result.files,
+            "changes": changes or [],
+            "draft_notice": "DRAFT — verify against current local regulation.",
+        },
+    )
+    write_csv(files[3], result.errors, ERROR_COLUMNS)
+    write_csv(files[4], result.files, FILE_COLUMNS)
+    if changes is not None:
+        files.append(out / "changes.csv")
+        write_csv(files[-1], changes, CHANGE_COLUMNS)
+    if result.crashes:
+        files.append(out / CRASH_REPORT)
+        write_crash_report(files[-1], result.crashes)
+    return files
+
+
+def _alive(pid: int) -> bool:
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except PermissionError:  # pragma: no cover - another user's process
+        return True
+    return True
+
+
+def clear_stale_stages(out: Path) -> None:
+    """Remove staging folders left by runs that were stopped (their process is gone)."""
+    if not out.is_dir():
+        return
+    for d in out.glob(STAGE_PREFIX + "*"):
+        pid = d.name[len(STAGE_PREFIX) :].split("-", 1)[0]
+        if d.is_dir() and pid.isdigit() and not _alive(int(pid)):
+            shutil.rmtree(d, ignore_errors=True)
+
+
+def publish(out: Path, write: Callable[[Path], list[Path]]) -> list[Path]:
+    """Call ``write(stage)`` to write every output into a fresh staging folder inside ``out``, then move the
+    outputs into ``out`` together. Returns the final paths. On any error nothing in ``out`` changes."""
+    out.mkdir(parents=True, exist_ok=True)
+    clear_stale_stages(out)
+    stage = Path(tempfile.mkdtemp(prefix=f"{STAGE_PREFIX}{os.getpid()}-", dir=out))
+    try:
+        written = write(stage)
+        tops = sorted({p.relative_to(stage).parts[0] for p in written})
+        for name in RUN_OUTPUTS:  # an earlier run's output this run does not write would mix two runs
+            old = out / name
+            if name not in tops and (old.exists() or old.is_symlink()):
+                shutil.rmtree(old) if old.is_dir() and not old.is_symlink() else old.unlink()
+        for name in tops:
+            src, dst = stage / name, out / name
+            if src.is_dir():
+                if dst.exists():
+                    os.replace(dst, stage / f".old-{name}")
+                os.replace(src, dst)
+            else:
+                os.replace(src, dst)
+        return [out / p.relative_to(stage) for p in written]
+    finally:
+        shutil.rmtree(stage, ignore_errors=True)
