@@ -16,8 +16,8 @@ from functools import cached_property
 import numpy as np
 
 from labelcalc import components as C
-from labelcalc.formulation.composition import Composition
-from labelcalc.formulation.energy import EnergyResult
+from labelcalc.formulation.composition import COL, Composition
+from labelcalc.formulation.energy import ENERGY_GROUPS, EnergyResult
 from labelcalc.labelling import engine as E
 from labelcalc.labelling.checks import Check, run_checks
 from labelcalc.labelling.ingredients import ingredient_list
@@ -75,15 +75,31 @@ def _fmt(v: float) -> str:
 
 # ------------------------------------------------------------------ declaration
 def _unknown_inputs(comp: Composition, pack: RulePack, key: str, energy: EnergyResult) -> list[str]:
+    """The ingredients (and, for energy, the components) whose unknown values make ``key`` unknown."""
     nd = pack.nutrients[key]
     if nd.energy:
         v = energy.kcal if nd.energy == "kcal" else energy.kj
-        return [] if v is not None else ["energy: " + ", ".join(energy.unknown_because)]
+        if v is not None:
+            return []
+        fs = energy.factor_set.factor_set
+        parts = [c for g in energy.unknown_because for c in ENERGY_GROUPS.get(g, ()) if c in COL]
+        if fs.protein_from_nitrogen:  # the law's protein is nitrogen x its factor
+            parts = ["nitrogen" if c == "protein" else c for c in parts]
+        found = sorted({f"{i} ({c})" for c in parts for i in comp.unknown_inputs(c)})
+        return found or ["energy: " + ", ".join(energy.unknown_because)]
     unknown: list[str] = []
     for comp_key in nd.sum or {}:
         if comp.value(comp_key) is None:
             unknown += comp.unknown_inputs(comp_key) or [comp_key]
     return sorted(set(unknown))
+
+
+def _needs_nitrogen(pack: RulePack, key: str, energy: EnergyResult) -> bool:
+    """The row is built from nitrogen (protein as N x 6.25, or energy from that protein)."""
+    nd = pack.nutrients[key]
+    if nd.energy:
+        return bool(energy.factor_set.factor_set.protein_from_nitrogen) and "protein" in energy.unknown_because
+    return "nitrogen" in (nd.sum or {})
 
 
 def _why(eng: E.LabelEngine, row, i: int) -> str:
@@ -169,6 +185,12 @@ def declaration_of(eng: E.LabelEngine, i: int) -> Declaration:
         if r.shown and any(d is None for d in r.declared.values()):
             notes.append(
                 f"{r.label}: unknown because of unknown values in {', '.join(r.unknown_inputs) or 'an input'}."
+                + (
+                    " This market declares protein as total nitrogen x 6.25: give 'nitrogen' [g/100 g] or the "
+                    "'nitrogen_factor' used for 'protein' in those library entries."
+                    if _needs_nitrogen(pack, r.nutrient, energy)
+                    else ""
+                )
             )
     if f.is_fried:
         notes.append(
@@ -198,7 +220,7 @@ def declaration_of(eng: E.LabelEngine, i: int) -> Declaration:
         rows,
         energy,
         available,
-        notes,
+        list(dict.fromkeys(notes)),
         list(dict.fromkeys(energy.reviews)),
         values,
     )
