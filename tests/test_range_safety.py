@@ -353,3 +353,17 @@ def test_an_output_folder_inside_the_source_is_not_read_as_input(tmp_path):
     assert _range(src, out, "--no-register").exit_code == 0
     assert _outputs(out) == first  # the first run's outputs did not become the second run's input
     assert "out/" not in (out / "files.csv").read_text(encoding="utf-8")
+
+
+def test_relative_output_folder_with_panels(tmp_path, monkeypatch):
+    """The README's first command: a relative --out with --panels (panels are written under the staging folder
+    and moved into place like every other output)."""
+    src = tmp_path / "src"
+    shutil.copytree(GOOD, src)
+    shutil.copytree(LIB, src / "ingredients")
+    monkeypatch.chdir(tmp_path)
+    res = runner.invoke(app, ["range", "src", "-m", "eu", "--out", "rel-out", "--panels", "-q", "--no-register"])
+    assert res.exit_code in (0, 1), res.output
+    assert "internal error" not in res.output
+    assert list((tmp_path / "rel-out" / "panels").glob("*.pdf"))
+    assert not list((tmp_path / "rel-out").glob(".labelcalc-stage*"))

@@ -152,8 +152,10 @@ def publish(out: Path, write: Callable[[Path], list[Path]]) -> list[Path]:
     clear_stale_stages(out)
     stage = Path(tempfile.mkdtemp(prefix=f"{STAGE_PREFIX}{os.getpid()}-", dir=out))
     try:
-        written = write(stage)
-        tops = sorted({p.relative_to(stage).parts[0] for p in written})
+        # compared as absolute paths: writers may return them absolute or relative to the working folder
+        base = Path(os.path.abspath(stage))
+        rel = [Path(os.path.abspath(p)).relative_to(base) for p in write(stage)]
+        tops = sorted({r.parts[0] for r in rel})
         for name in RUN_OUTPUTS:  # an earlier run's output this run does not write would mix two runs
             old = out / name
             if name not in tops and (old.exists() or old.is_symlink()):
@@ -166,6 +168,6 @@ def publish(out: Path, write: Callable[[Path], list[Path]]) -> list[Path]:
                 os.replace(src, dst)
             else:
                 os.replace(src, dst)
-        return [out / p.relative_to(stage) for p in written]
+        return [out / r for r in rel]
     finally:
         shutil.rmtree(stage, ignore_errors=True)
