@@ -142,3 +142,17 @@ def test_range_summary_and_single_product_output_agree(tmp_path):
                 text = r[f"declared_{col}"]
                 if r["shown"] and text is not None:  # a row that prints its amount inside its label
                     assert row[r["nutrient"]] == text or text.replace(" ", "") in row[r["nutrient"]]
+
+
+@pytest.mark.parametrize("market", ["anz", "eu"])
+def test_panel_prints_the_records_ingredient_list(tmp_path, market):
+    """The PDF draws the ingredient list the record holds, functional-class groups included."""
+    from pypdf import PdfReader
+
+    res = CliRunner().invoke(app, ["panel", str(DEMO / "hl_gummy_sugar_free.yaml"), "-m", market, "-o", str(tmp_path)])
+    assert res.exit_code in (0, 1), res.output
+    doc = CliRunner().invoke(app, ["assess", str(DEMO / "hl_gummy_sugar_free.yaml"), "-m", market, "--json"])
+    text = json.loads(doc.stdout)["assessments"][0]["ingredient_list"]["text"]
+    pdf = " ".join(PdfReader(tmp_path / f"hl_gummy_sugar_free.{market}.pdf").pages[0].extract_text().split())
+    assert " ".join(text.split()) in pdf
+    assert "Sweeteners" in text

@@ -178,10 +178,12 @@ def ingredient_list(comp: Composition, pack: RulePack) -> dict | None:
                 )
                 quid.append({"ingredient": it["name"], "percent": pct, "text": it["quid"]})
     emphasis = pack.allergens.emphasis if pack.allergens else "bold"
-    text = rule.heading + " " + _render(_by_class(items, rule, emphasis), emphasis) + "."
+    printed = _by_class(items, rule)
+    text = rule.heading + " " + render_items(printed, lambda it: allergen_name(it, emphasis)) + "."
     return {
         "heading": rule.heading,
         "items": items,
+        "printed_items": printed,
         "text": text,
         "quid": quid,
         "notes": notes,
@@ -235,13 +237,16 @@ def allergen_name(it: dict, emphasis: str, bold=str.upper) -> str:
     return bold(name)
 
 
-def _by_class(items: list[dict], rule, emphasis: str) -> list[dict]:
-    """Additives named by the market's functional class: those of one class are grouped where the first
-    (heaviest) of them stands, e.g. 'Sweeteners: aspartame, acesulfame K' (style of the pack's rule); and
-    ingredients of a grouped kind listed under one heading placed by their total weight, e.g. 'Sugars (sugar,
-    glucose syrup)'. Grouping is done by hand here: it is the market's wording rule, no library does it."""
+def _by_class(items: list[dict], rule) -> list[dict]:
+    """The items as printed where a market names additives by functional class: those of one class are
+    grouped where the first (heaviest) of them stands, e.g. 'Sweeteners: aspartame, acesulfame K' (style of
+    the pack's rule); ingredients of a grouped kind are listed under one heading placed by their total weight,
+    e.g. 'Sugars (sugar, glucose syrup)'. A group is an item whose ``group`` says how its members (its
+    ``components``) are written (see :func:`render_items`). Grouping is done by hand here: it is the market's
+    wording rule, no library does it."""
     if not rule.functional_classes and not rule.kind_groups:
         return items
+    style = {"class_parentheses": "parentheses", "name_then_class": "after"}.get(rule.functional_class_style, "colon")
     out: list[dict] = []
     groups: dict[str, dict] = {}
     kind_heads: dict[str, dict] = {}
@@ -251,47 +256,47 @@ def _by_class(items: list[dict], rule, emphasis: str) -> list[dict]:
             head = rule.kind_groups[kind]
             g = kind_heads.get(head.many)
             if g is None:
-                g = kind_heads[head.many] = {**it, "name": head.many, "members": [], "components": []}
+                g = kind_heads[head.many] = {**it, "name": head.many, "group": "parentheses", "components": []}
                 g["grams_per_100g"] = 0.0
                 g["allergen"] = False
                 out.append(g)
             g["grams_per_100g"] += it["grams_per_100g"]
-            g["members"].append(allergen_name({**it, "name": it["name"].lower()}, emphasis, bold=str.upper))
+            g["components"].append({**it, "name": it["name"].lower(), "components": []})
             continue
         cls = rule.functional_classes.get(it.get("functional_class") or "")
         if cls is None:
             comps = it["components"]
-            out.append({**it, "components": _by_class(comps, rule, emphasis)} if comps else it)
+            out.append({**it, "components": _by_class(comps, rule)} if comps else it)
             continue
         g = groups.get(cls.one)
         if g is None:
-            g = groups[cls.one] = {**it, "members": [], "cls": cls, "allergen": False, "components": []}
+            g = groups[cls.one] = {**it, "group": style, "cls": cls, "allergen": False, "components": []}
             out.append(g)
-        g["members"].append(allergen_name(it, emphasis))
+        g["components"].append({**it, "components": []})
     for g in groups.values():
-        cls, members = g.pop("cls"), g.pop("members")
-        label = cls.one if len(members) == 1 else cls.many
-        joined = ", ".join(members)
-        if rule.functional_class_style == "class_parentheses":
-            g["name"] = f"{label} ({joined})"
-        elif rule.functional_class_style == "name_then_class":
-            g["name"] = f"{joined} ({label})"
-        else:
-            g["name"] = f"{label}: {joined}"
-    for g in kind_heads.values():
-        g["name"] = f"{g['name']} ({', '.join(g.pop('members'))})"
+        cls = g.pop("cls")
+        g["name"] = cls.one if len(g["components"]) == 1 else cls.many
     if kind_heads:
         out.sort(key=lambda x: -x["grams_per_100g"])
     return out
 
 
-def _render(items: list[dict], emphasis: str = "bold") -> str:
+def render_items(items: list[dict], show) -> str:
+    """An ingredient list's items as text: ``show(item)`` writes one name (with the market's allergen
+    emphasis, escaped as the output needs); compound ingredients take their components in parentheses,
+    functional-class groups their members as the group's style says."""
     parts = []
     for it in items:
-        name = allergen_name(it, emphasis)
+        name = show(it)
         if it.get("quid"):
             name += f" ({it['quid']})"
-        if it["components"]:
-            name += " (" + _render(it["components"], emphasis) + ")"
+        inner = render_items(it["components"], show) if it["components"] else ""
+        group = it.get("group")
+        if group == "colon":
+            name = f"{name}: {inner}"
+        elif group == "after":
+            name = f"{inner} ({name})"
+        elif inner:
+            name += f" ({inner})"
         parts.append(name)
     return ", ".join(parts)

@@ -25,7 +25,7 @@ from reportlab.platypus import Flowable, PageBreak, Paragraph, SimpleDocTemplate
 
 from labelcalc import __version__
 from labelcalc.labelling.checks import Check
-from labelcalc.labelling.ingredients import allergen_name
+from labelcalc.labelling.ingredients import allergen_name, render_items
 from labelcalc.labelling.model import BASIS_LABEL, ELIGIBLE, Assessment, Declaration, display_unit
 from labelcalc.labelling.rounding import fill_amount, plain_label
 from labelcalc.outputs.calcsheet import calculation_rows
@@ -433,18 +433,10 @@ def ingredient_paragraph(a: Assessment, st) -> Paragraph | None:
         return None
     emph = a.allergens.get("emphasis", "bold")
 
-    def render(items):
-        parts = []
-        for it in items:
-            name = allergen_name({**it, "name": _esc(it["name"])}, emph, bold=lambda s: f"<b>{s}</b>")
-            if it.get("quid"):
-                name += f" ({_esc(it['quid'])})"
-            if it["components"]:
-                name += " (" + render(it["components"]) + ")"
-            parts.append(name)
-        return ", ".join(parts)
+    def show(it: dict) -> str:
+        return allergen_name({**it, "name": _esc(it["name"])}, emph, bold=lambda s: f"<b>{s}</b>")
 
-    return Paragraph(f"<b>{_esc(il['heading'])}</b> " + render(il["items"]) + ".", st["base"])
+    return Paragraph(f"<b>{_esc(il['heading'])}</b> " + render_items(il["printed_items"], show) + ".", st["base"])
 
 
 def second_language_list(a: Assessment) -> tuple[str, list[str]] | None:
