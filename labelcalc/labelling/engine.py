@@ -409,12 +409,15 @@ class LabelEngine:
     def added_sources(self) -> list[dict[str, set[str]]]:
         """Per product: ingredient kind -> components the ingredients of that kind bring (value above zero)."""
         out = []
+        brought: dict[int, set[str]] = {}  # per ingredient object: products share their ingredients
         for f in self.products:
             got: dict[str, set[str]] = {}
             for ing in f.ingredients_used():
-                brought = {k for k, v in ing.values.items() if v > 0}
+                b = brought.get(id(ing))
+                if b is None:
+                    b = brought[id(ing)] = {k for k, v in ing.values.items() if v > 0}
                 for kind in ing.kinds:
-                    got.setdefault(kind, set()).update(brought)
+                    got.setdefault(kind, set()).update(b)
             out.append(got)
         return out
 

@@ -22,8 +22,9 @@ def allergen_report(comp: Composition, pack: RulePack) -> dict:
     without allergen data are listed as unknown (treated as possibly containing allergens)."""
     rules = pack.allergens
     used = comp.formula.ingredients_used()
-    amounts = comp.leaf_amounts()
-    unknown = [i.id for i in used if i.allergens is None and amounts.get(i.id, 0) > 0]
+    lacking = [i for i in used if i.allergens is None]
+    amounts = comp.leaf_amounts() if lacking else {}  # walked only when some ingredient has no allergen data
+    unknown = [i.id for i in lacking if amounts.get(i.id, 0) > 0]
     present: dict[str, list[str]] = {}
     if rules is None:
         return {

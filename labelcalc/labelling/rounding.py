@@ -288,11 +288,25 @@ def round_values(
         open_ &= ~holds
     if open_.any():
         raise ValueError("no rounding band holds")  # guarded by the open last band
-    texts = [
-        fixed_text[int(bi)] if int(bi) in fixed_text else text_of(int(num), None if pl < 0 else int(pl))
-        for bi, num, pl in zip(band, number, places)
-    ]
-    return RoundedArray(number, band, texts, less)
+    return RoundedArray(number, band, _texts(band, number, places, fixed_text), less)
+
+
+def _texts(band: np.ndarray, number: np.ndarray, places: np.ndarray, fixed_text: dict[int, str]) -> list[str]:
+    """Printed texts of rounded numbers: each distinct (number, places) is formatted once (a range has
+    far fewer distinct rounded figures than labels)."""
+    out = np.empty(len(band), dtype=object)
+    free = np.ones(len(band), dtype=bool)
+    for i, t in fixed_text.items():
+        hit = band == i
+        out[hit] = t
+        free &= ~hit
+    for pl in np.unique(places[free]).tolist():
+        sel = free & (places == pl)
+        uniq, inv = np.unique(number[sel], return_inverse=True)
+        ut = np.empty(len(uniq), dtype=object)
+        ut[:] = [text_of(int(x), None if pl < 0 else int(pl)) for x in uniq.tolist()]
+        out[sel] = ut[inv.reshape(-1)]
+    return out.tolist()
 
 
 def _cond(c: Condition, others: dict[str, Decimal]) -> bool:

@@ -14,19 +14,56 @@ from labelcalc.labelling.record import front_of_pack
 
 
 def _f(v: float) -> float | None:
-    return None if np.isnan(v) else float(v)
+    return None if v != v else v  # NaN is the one float unequal to itself
+
+
+class _Tables:
+    """One engine's tables as plain lists, read label by label (indexing a list is far cheaper than a
+    numpy scalar); built once per engine."""
+
+    def __init__(self, eng: LabelEngine):
+        pack = eng.pack
+        lists = eng.as_lists
+        self.e_kcal = eng.e_kcal.tolist()
+        self.e_kj = eng.e_kj.tolist()
+        self.a_kcal = eng.available.kcal.tolist()
+        pb = pack.panel.percent_basis
+        self.rows = []
+        for r in pack.rows:
+            n = r.nutrient
+            pcts = lists["percent"][n]
+            texts = {b: eng.texts(n, b) for b in eng.bases}
+            label = r.label if "{amount}" in r.label else None
+            self.rows.append((n, label, lists["shown"][n], texts, pcts, f"{n}_percent", pb))
+        eligible = [(c.claim.id, (c.verdict == VERDICT_ELIGIBLE).tolist()) for c in eng.claims]
+        self.claims = [[cid for cid, ok in eligible if ok[i]] for i in range(eng.n)]
+        ids = [st.id for st, _ in eng.statements]
+        listed = eng.statements_listed.T.tolist()
+        self.statements = [[x for x, on in zip(ids, col) if on] for col in listed] if ids else [[]] * eng.n
+        zero = np.zeros(eng.n, dtype=int)
+        for flags in eng.zero_rows.values():
+            zero += np.asarray(flags, dtype=bool)
+        self.reviews = (np.asarray(eng.energy_review_counts, dtype=int) + zero).tolist()
+
+
+def _tables(eng: LabelEngine) -> _Tables:
+    got = eng.__dict__.get("_summary_tables")
+    if got is None:
+        got = eng.__dict__["_summary_tables"] = _Tables(eng)
+    return got
 
 
 def label_summary(eng: LabelEngine, i: int) -> tuple[dict, dict[str, str | None], list[str], list[str], list[str]]:
     """(summary row, declared texts by "nutrient|column[|%]", statements, allergens, eligible claims) of
     product ``i``."""
     pack = eng.pack
+    tab = _tables(eng)
     comp = eng.comps[i]
     f = comp.formula
     plan = eng.plans[i]
     main = plan.columns[0]
     s = plan.serving
-    e_kcal, e_kj, a_kcal = _f(eng.e_kcal[i]), _f(eng.e_kj[i]), _f(eng.available.kcal[i])
+    e_kcal, e_kj, a_kcal = _f(tab.e_kcal[i]), _f(tab.e_kj[i]), _f(tab.a_kcal[i])
     row: dict = {
         "product_id": f.id,
         "product_name": f.header.name,
@@ -43,28 +80,24 @@ def label_summary(eng: LabelEngine, i: int) -> tuple[dict, dict[str, str | None]
         "available_energy_kcal_per_serving": None if a_kcal is None or s is None else a_kcal * s / 100,
     }
     declared: dict[str, str | None] = {}
-    pb = pack.panel.percent_basis or main
-    lists = eng.as_lists
-    for r in pack.rows:
-        n = r.nutrient
-        if not lists["shown"][n][i]:
+    columns = plan.columns
+    for n, label, shown, texts, pcts, pkey, pb in tab.rows:
+        if not shown[i]:
             continue
-        text = eng.texts(n, main)[i]
-        row[n] = r.label.replace("{amount}", text.replace(" ", "")) if "{amount}" in r.label else text
-        pcts = lists["percent"][n]
-        pct = pcts.get(pb)
+        text = texts[main][i]
+        row[n] = label.replace("{amount}", text.replace(" ", "")) if label is not None else text
+        pct = pcts.get(pb or main)
         if pct and pct[i]:
-            row[f"{n}_percent"] = pct[i]
-        for b in plan.columns:
-            declared[f"{n}|{b}"] = eng.texts(n, b)[i]
+            row[pkey] = pct[i]
+        for b in columns:
+            declared[f"{n}|{b}"] = texts[b][i]
             pc = pcts.get(b)
             if pc and pc[i]:
                 declared[f"{n}|{b}|%"] = pc[i]
-    claims = [c.claim.id for c in eng.claims if c.verdict[i] == VERDICT_ELIGIBLE]
-    listed = eng.statements_listed[:, i]
-    statements = [st.id for (st, _), on in zip(eng.statements, listed) if on]
+    claims = tab.claims[i]
+    statements = tab.statements[i]
     allergens = eng.allergens(i)
-    fop = front_of_pack(eng, i)
+    fop = front_of_pack(eng, i) if eng.front_of_pack else []
     row["claims_eligible"] = "; ".join(claims)
     row["statements_required"] = "; ".join(statements)
     row["allergens"] = "; ".join(allergens.get("declared", []))
@@ -74,7 +107,5 @@ def label_summary(eng: LabelEngine, i: int) -> tuple[dict, dict[str, str | None]
         + ", ".join(f"{k}={v.get('colour', v.get('high_in'))}" for k, v in fo.get("verdicts", {}).items())
         for fo in fop
     )
-    zero = sum(bool(flags[i]) for flags in eng.zero_rows.values())
-    reviews = int(eng.energy_review_counts[i]) + zero + len(allergens.get("review", []))
-    row["reviews"] = reviews
+    row["reviews"] = tab.reviews[i] + len(allergens.get("review", []))
     return row, declared, sorted(statements), sorted(allergens.get("declared", [])), sorted(claims)
