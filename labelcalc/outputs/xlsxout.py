@@ -16,6 +16,7 @@ from __future__ import annotations
 import datetime as _dt
 import re
 import zipfile
+from collections.abc import Iterable
 from pathlib import Path
 
 from openpyxl import Workbook
@@ -87,12 +88,48 @@ def _round(v, decimals):
     return round(v, decimals) if isinstance(v, float) and decimals is not None else v
 
 
-def market_columns(rows: list[dict], pack: RulePack | None) -> list[tuple[str, str, str, int]]:
+class SheetPlan:
+    """What a market sheet's columns depend on, gathered row by row (so rows can be streamed): the keys
+    the rows use, the keys with a value that is not simply "number unit", and the basis of the first row."""
+
+    def __init__(self) -> None:
+        self.keys: set[str] = set()
+        self.printed: set[str] = set()
+        self.basis: str | None = None
+        self.rows = 0
+
+    def add(self, row: dict) -> None:
+        if not self.rows:
+            self.basis = row.get("column", "per_serving")
+        self.rows += 1
+        for k, v in row.items():
+            if k not in self.keys:
+                self.keys.add(k)
+            if k not in self.printed and not _number(v)[1]:
+                self.printed.add(k)
+
+    def merge(self, later: SheetPlan) -> None:
+        """Add the plan of rows that come after this plan's rows."""
+        if not self.rows:
+            self.basis = later.basis
+        self.rows += later.rows
+        self.keys |= later.keys
+        self.printed |= later.printed
+
+
+def plan_of(rows: list[dict]) -> SheetPlan:
+    plan = SheetPlan()
+    for r in rows:
+        plan.add(r)
+    return plan
+
+
+def market_columns(plan: SheetPlan, pack: RulePack | None) -> list[tuple[str, str, str, int]]:
     """(summary key, header, kind, width) of a market sheet's nutrient columns; kind is 'number',
     'printed' or 'percent'.  Names come from the pack where it is known, else from the keys."""
-    keys = {k for r in rows for k in r}
+    keys = plan.keys
     order = [r.nutrient for r in pack.rows] if pack else sorted(k for k in keys if not k.endswith("_percent"))
-    basis = rows[0].get("column", "per_serving") if rows else "per_serving"
+    basis = plan.basis or "per_serving"
     basis_text = BASIS_LABEL.get(basis, basis.replace("_", " "))
     cols: list[tuple[str, str, str, int]] = []
     for key in order:
@@ -106,10 +143,9 @@ def market_columns(rows: list[dict], pack: RulePack | None) -> list[tuple[str, s
         unit = display_unit(pack.nutrients[key].unit) if pack and key in pack.nutrients else ""
         if pack and key in pack.nutrients and pack.panel.unit_labels.get(pack.nutrients[key].unit):
             unit = pack.panel.unit_labels[pack.nutrients[key].unit]
-        values = [r.get(key) for r in rows]
         if prow is None or not prow.percent_only:
             cols.append((key, f"{name} {basis_text} [{unit}]" if unit else f"{name} {basis_text}", "number", 14))
-            if any(not _number(v)[1] for v in values):
+            if key in plan.printed:
                 cols.append((key, f"{name} as printed", "printed", 20))
         if f"{key}_percent" in keys:
             plabel = (pack.panel.percent_label or "%").rstrip("*") if pack else "%"
@@ -128,29 +164,34 @@ def _header(ws, headers: list[str]) -> None:
     ws.append(cells)
 
 
-def _market_sheet(wb: Workbook, market: str, rows: list[dict], pack: RulePack | None) -> None:
-    ws = wb.create_sheet(market.upper() if len(market) <= 5 else market[:31])
-    cols = market_columns(rows, pack)
-    widths = [w for _, _, w, _ in _LEAD] + [w for *_, w in cols] + [w for *_, w in _TAIL]
-    for j, w in enumerate(widths):
-        ws.column_dimensions[_letter(j)].width = w
-    ws.freeze_panes = "C2"
-    _header(ws, [h for _, h, _, _ in _LEAD] + [h for _, h, _, _ in cols] + [h for _, h, _ in _TAIL])
-    templates = {r.nutrient: r.label for r in pack.rows if "{amount}" in r.label} if pack else {}
-    names: dict[str, str] = {}
-    if pack:
-        names.update({c.id: c.label for c in pack.claims})
-        names.update({s.id: s.text for s in pack.statements})
-    for r in rows:
+class _MarketSheet:
+    """A market sheet opened with its header; rows are appended one by one."""
+
+    def __init__(self, wb: Workbook, market: str, plan: SheetPlan, pack: RulePack | None):
+        self.ws = ws = wb.create_sheet(market.upper() if len(market) <= 5 else market[:31])
+        self.cols = cols = market_columns(plan, pack)
+        widths = [w for _, _, w, _ in _LEAD] + [w for *_, w in cols] + [w for *_, w in _TAIL]
+        for j, w in enumerate(widths):
+            ws.column_dimensions[_letter(j)].width = w
+        ws.freeze_panes = "C2"
+        _header(ws, [h for _, h, _, _ in _LEAD] + [h for _, h, _, _ in cols] + [h for _, h, _ in _TAIL])
+        self.templates = {r.nutrient: r.label for r in pack.rows if "{amount}" in r.label} if pack else {}
+        self.names: dict[str, str] = {}
+        if pack:
+            self.names.update({c.id: c.label for c in pack.claims})
+            self.names.update({s.id: s.text for s in pack.statements})
+
+    def append(self, r: dict) -> None:
         line = [_round(r.get(k), d) for k, _, _, d in _LEAD]
-        for key, _, kind, _ in cols:
+        templates = self.templates
+        for key, _, kind, _ in self.cols:
             v = _amount_of(r.get(key), templates.get(key))
             if kind == "printed":
                 line.append(None if _number(v)[1] else v)
             else:
                 line.append(_number(v)[0])
-        line += [_names(k, r.get(k), names) for k, _, _ in _TAIL]
-        ws.append(line)
+        line += [_names(k, r.get(k), self.names) for k, _, _ in _TAIL]
+        self.ws.append(line)
 
 
 def _letter(j: int) -> str:
@@ -179,18 +220,33 @@ def write_summary_workbook(
     error_columns: list[str] | None = None,
 ) -> None:
     """Write the range summary workbook to ``path`` (one sheet per market, then errors and changes)."""
+    plans: dict[str, SheetPlan] = {}
+    for r in rows:
+        plans.setdefault(r["market"], SheetPlan()).add(r)
+    write_summary_workbook_streamed(path, plans, rows, errors, changes, packs, error_columns)
+
+
+def write_summary_workbook_streamed(
+    path: Path,
+    plans: dict[str, SheetPlan],
+    rows: Iterable[dict],
+    errors: list[dict],
+    changes: list[dict] | None,
+    packs: dict[str, RulePack] | None = None,
+    error_columns: list[str] | None = None,
+) -> None:
+    """The summary workbook from rows read once, in summary order (each market's rows go to its sheet as
+    they come); ``plans`` (market -> :class:`SheetPlan` of all its rows) fixes the sheets' columns first."""
     wb = Workbook(write_only=True)
     wb.properties.creator = "labelcalc"
     wb.properties.created = FIXED_TIME
     wb.properties.modified = FIXED_TIME
-    by_market: dict[str, list[dict]] = {}
-    for r in rows:
-        by_market.setdefault(r["market"], []).append(r)
-    for market in sorted(by_market):
-        _market_sheet(wb, market, by_market[market], (packs or {}).get(market))
+    sheets = {m: _MarketSheet(wb, m, plans[m], (packs or {}).get(m)) for m in sorted(plans) if plans[m].rows}
     _plain_sheet(wb, "errors", errors, error_columns)
     if changes is not None:
         _plain_sheet(wb, "changes", changes, ["status", "product_id", "market", "scenario", "what_moved", "why"])
+    for r in rows:
+        sheets[r["market"]].append(r)
     wb.save(path)
     _fix_zip_dates(path)
 
