@@ -11,6 +11,7 @@ import functools
 import json
 import os
 import sys
+import tempfile
 import traceback
 from pathlib import Path
 
@@ -806,35 +807,37 @@ def range_cmd(
 
             reg = Register(register or out / "label-register.sqlite")
             reg.lock()  # held until the outputs are in place: a busy register stops the run now, not at the end
-        progress, stop = _progress(quiet)
-        try:
-            result = run_range(
-                source,
-                lib_path,
-                markets,
-                rules,
-                jobs=jobs,
-                progress=progress,
-                with_labels=not no_register,
-                exclude=[out] + ([register.parent] if register else []),
-            )
-        finally:
-            stop()
-        failed_files = {f["file"] for f in result.files if f["outcome"] != "labelled" and f["kind"] != "subformula"}
-        changes = reg.compare(result.labels, failed_files) if reg else None
-        notes: list[str] = []
+        with tempfile.TemporaryDirectory(prefix="labelcalc-parts-") as part_dir:  # summary rows, streamed
+            progress, stop = _progress(quiet)
+            try:
+                result = run_range(
+                    source,
+                    lib_path,
+                    markets,
+                    rules,
+                    jobs=jobs,
+                    progress=progress,
+                    with_labels=not no_register,
+                    exclude=[out] + ([register.parent] if register else []),
+                    part_dir=Path(part_dir),
+                )
+            finally:
+                stop()
+            failed_files = {f["file"] for f in result.files if f["outcome"] != "labelled" and f["kind"] != "subformula"}
+            changes = reg.compare(result.labels, failed_files) if reg else None
+            notes: list[str] = []
 
-        def write(stage: Path) -> list[Path]:
-            files = write_outputs(stage, result, changes, range_packs)
-            if panels:
-                from labelcalc.outputs.panelrun import write_panels
+            def write(stage: Path) -> list[Path]:
+                files = write_outputs(stage, result, changes, range_packs)
+                if panels:
+                    from labelcalc.outputs.panelrun import write_panels
 
-                written, why_not = write_panels(source, lib_path, markets, rules, stage, jobs=jobs)
-                files += written
-                notes.extend(why_not)
-            return files
+                    written, why_not = write_panels(source, lib_path, markets, rules, stage, jobs=jobs)
+                    files += written
+                    notes.extend(why_not)
+                return files
 
-        files = publish(out, write)
+            files = publish(out, write)
         if reg:
             reg.record(result.labels)  # only now: an interrupted run records nothing and its rerun reports the same
     except LabelError as exc:

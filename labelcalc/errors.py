@@ -74,9 +74,16 @@ def display_path(path: str | Path | None) -> str | None:
     """Show a path relative to the working folder when it is inside it."""
     if path is None:
         return None
+    return _shown(str(path), os.getcwd())
+
+
+@lru_cache(maxsize=65536)
+def _shown(path: str, cwd: str) -> str:
+    """A file is named several times while it is read and labelled: resolved once per working folder
+    (a file's place does not change during a run)."""
     p = Path(path)
     try:
-        return str(p.resolve().relative_to(_cwd(os.getcwd())))
+        return str(p.resolve().relative_to(_cwd(cwd)))
     except ValueError:
         return str(p)
 

@@ -18,6 +18,7 @@ and so does every formula that refers to the id.
 from __future__ import annotations
 
 import difflib
+from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -151,7 +152,17 @@ class FormulaIndex:
     several files to all of them; ``products`` lists product files (duplicates included, so each can be
     reported); ``entries`` is every file with its kind, for accounting."""
 
-    def __init__(self, folders: list[Path], *, keep_products: bool = False):
+    def __init__(
+        self,
+        folders: list[Path],
+        *,
+        keep_products: bool | int = False,
+        classify_all: Callable[[list[Path]], list[CatalogueEntry]] | None = None,
+    ):
+        """``classify_all`` classifies a list of files as :func:`classify` does, in order (range runs pass
+        one that shares the files out to worker processes); not with ``keep_products``, which keeps the parsed
+        data of product files for their one later load (a number: of at most that many files, so memory stays
+        bounded on a large range, whose other files are parsed again when loaded)."""
         self.entries: list[CatalogueEntry] = []
         self._parsed: dict[Path, object] = {}  # product files' parsed data, kept for one later load (ranges)
         self.paths: dict[str, Path] = {}
@@ -159,18 +170,23 @@ class FormulaIndex:
         self.duplicates: dict[str, list[Path]] = {}
         seen: set[Path] = set()
         by_id: dict[str, list[CatalogueEntry]] = {}
+        files = []
         for folder in folders:
             for f in yaml_files(folder):
                 key = f.resolve()
-                if key in seen:
-                    continue
-                seen.add(key)
-                e, data = _classify(f)
-                self.entries.append(e)
-                if keep_products and e.kind == "product":
-                    self._parsed[f] = data
-                if e.id is not None:
-                    by_id.setdefault(e.id, []).append(e)
+                if key not in seen:
+                    seen.add(key)
+                    files.append(f)
+        if classify_all is not None and not keep_products:
+            pairs: Iterable[tuple[CatalogueEntry, object]] = ((e, None) for e in classify_all(files))
+        else:
+            pairs = (_classify(f) for f in files)
+        for f, (e, data) in zip(files, pairs):
+            self.entries.append(e)
+            if keep_products and e.kind == "product" and (keep_products is True or len(self._parsed) < keep_products):
+                self._parsed[f] = data
+            if e.id is not None:
+                by_id.setdefault(e.id, []).append(e)
         for ident, es in by_id.items():
             if len(es) > 1:
                 self.duplicates[ident] = [e.path for e in es]

@@ -102,11 +102,13 @@ class SheetPlan:
         if not self.rows:
             self.basis = row.get("column", "per_serving")
         self.rows += 1
+        self.keys.update(row)
+        printed = self.printed
         for k, v in row.items():
-            if k not in self.keys:
-                self.keys.add(k)
-            if k not in self.printed and not _number(v)[1]:
-                self.printed.add(k)
+            if v is None or k in printed or isinstance(v, (int, float)):  # numbers and blanks are plain
+                continue
+            if not _number(v)[1]:
+                printed.add(k)
 
     def merge(self, later: SheetPlan) -> None:
         """Add the plan of rows that come after this plan's rows."""

@@ -12,18 +12,21 @@ fixed zip dates, and nothing carries the time of the run.
 
 from __future__ import annotations
 
+import contextlib
 import csv
-import json
 import os
 import platform
 import shutil
 import tempfile
-from collections.abc import Callable
+from collections.abc import Callable, Iterable
+from concurrent.futures import ProcessPoolExecutor
 from pathlib import Path
 
 from labelcalc import __version__
 from labelcalc.files import atomic_write
-from labelcalc.ranges.rangerun import CRASH_REPORT, RangeResult
+from labelcalc.outputs.jsonstream import Lazy
+from labelcalc.ranges import parts
+from labelcalc.ranges.rangerun import CRASH_REPORT, RangeResult, mp_context
 
 STAGE_PREFIX = ".labelcalc-stage-"
 #: every name a range run may write at the top of its output folder
@@ -53,8 +56,8 @@ def _columns(rows: list[dict]) -> list[str]:
     return cols
 
 
-def write_csv(path: Path, rows: list[dict], columns: list[str] | None = None) -> None:
-    cols = columns or _columns(rows)
+def write_csv(path: Path, rows: Iterable[dict], columns: list[str] | None = None) -> None:
+    cols = columns or _columns(rows)  # type: ignore[arg-type]  # without columns, rows is a list
 
     def w(tmp: Path):
         with tmp.open("w", newline="", encoding="utf-8") as fh:
@@ -67,10 +70,15 @@ def write_csv(path: Path, rows: list[dict], columns: list[str] | None = None) ->
 
 
 def write_json(path: Path, doc) -> None:
+    """A JSON document (``json``'s text with indent 1); a top-level mapping's :class:`Lazy` values are streamed."""
+    from labelcalc.outputs.jsonstream import encode, write_document
+
     def w(tmp: Path):
         with tmp.open("w", encoding="utf-8") as fh:  # streamed: a large range never sits in memory as one string
-            for chunk in json.JSONEncoder(indent=1, ensure_ascii=False, default=str).iterencode(doc):
-                fh.write(chunk)
+            if isinstance(doc, dict):
+                write_document(fh, list(doc.items()))
+            else:
+                fh.write(encode(doc))
 
     atomic_write(path, w)
 
@@ -89,39 +97,69 @@ def write_crash_report(path: Path, crashes: list[dict], context: str = "") -> No
     atomic_write(path, lambda tmp: tmp.write_text("\n".join(lines) + "\n", encoding="utf-8"))
 
 
+def _workbook(path: Path, result: RangeResult, changes: list[dict] | None, packs: dict | None) -> None:
+    """The summary workbook; in a streamed run this runs in its own process (see :func:`write_outputs`)."""
+    from labelcalc.outputs.xlsxout import write_summary_workbook, write_summary_workbook_streamed
+
+    if result.parts:
+        plans = parts.sheet_plans(result.parts)
+        atomic_write(
+            path,
+            lambda tmp: write_summary_workbook_streamed(
+                tmp, plans, parts.read_rows(result.parts), result.errors, changes, packs, ERROR_COLUMNS
+            ),
+        )
+    else:
+        atomic_write(
+            path, lambda tmp: write_summary_workbook(tmp, result.rows, result.errors, changes, packs, ERROR_COLUMNS)
+        )
+
+
 def write_outputs(
     out: Path, result: RangeResult, changes: list[dict] | None = None, packs: dict | None = None
 ) -> list[Path]:
     """The run's tables in ``out`` (a staging folder when called through :func:`publish`); ``packs`` (market ->
-    pack) names the workbook's columns as each pack prints them."""
-    from labelcalc.outputs.xlsxout import write_summary_workbook
+    pack) names the workbook's columns as each pack prints them.
 
+    A streamed run (summary rows in part files) reads the parts back for each file, one batch at a time; its
+    workbook, the slowest file to write, is written by a second process while this one writes the CSV and
+    JSON files."""
     out.mkdir(parents=True, exist_ok=True)
     files = [out / "summary.csv", out / "summary.xlsx", out / "summary.json", out / "errors.csv", out / "files.csv"]
-    write_csv(files[0], result.rows)
-    atomic_write(
-        files[1],
-        lambda tmp: write_summary_workbook(tmp, result.rows, result.errors, changes, packs, ERROR_COLUMNS),
-    )
-    write_json(
-        files[2],
-        {
-            "tool_version": __version__,
-            "summary": result.rows,
-            "errors": result.errors,
-            "files": result.files,
-            "changes": changes or [],
-            "draft_notice": "DRAFT — verify against current local regulation.",
-        },
-    )
-    write_csv(files[3], result.errors, ERROR_COLUMNS)
-    write_csv(files[4], result.files, FILE_COLUMNS)
-    if changes is not None:
-        files.append(out / "changes.csv")
-        write_csv(files[-1], changes, CHANGE_COLUMNS)
-    if result.crashes:
-        files.append(out / CRASH_REPORT)
-        write_crash_report(files[-1], result.crashes)
+    streamed = bool(result.parts)
+    with contextlib.ExitStack() as stack:
+        book = None
+        if streamed:
+            ex = stack.enter_context(ProcessPoolExecutor(max_workers=1, mp_context=mp_context()))
+            slim = RangeResult(errors=result.errors, parts=result.parts)  # what the workbook reads, no more
+            book = ex.submit(_workbook, files[1], slim, changes, packs)
+        else:
+            _workbook(files[1], result, changes, packs)
+        rows: Callable[[], Iterable[dict]] = (
+            (lambda: parts.read_rows(result.parts)) if streamed else (lambda: result.rows)
+        )
+        write_csv(files[0], rows(), parts.columns(result.parts) if streamed else None)
+        write_json(
+            files[2],
+            {
+                "tool_version": __version__,
+                "summary": Lazy(rows()),
+                "errors": result.errors,
+                "files": result.files,
+                "changes": changes or [],
+                "draft_notice": "DRAFT — verify against current local regulation.",
+            },
+        )
+        write_csv(files[3], result.errors, ERROR_COLUMNS)
+        write_csv(files[4], result.files, FILE_COLUMNS)
+        if changes is not None:
+            files.append(out / "changes.csv")
+            write_csv(files[-1], changes, CHANGE_COLUMNS)
+        if result.crashes:
+            files.append(out / CRASH_REPORT)
+            write_crash_report(files[-1], result.crashes)
+        if book is not None:
+            book.result()
     return files
 
 

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import multiprocessing
 import traceback
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass, field
@@ -16,12 +17,13 @@ from pathlib import Path
 
 from labelcalc.errors import InputError, LabelError, Problem, display_path
 from labelcalc.formulation.composition import compose, compose_many
-from labelcalc.intake.catalogue import classify, other_files
+from labelcalc.intake.catalogue import CatalogueEntry, classify, other_files
 from labelcalc.intake.formula import Formula, FormulaIndex, build_formula, load_formula
 from labelcalc.intake.library import Library, load_library
 from labelcalc.intake.sources import index_for, sheet_products
 from labelcalc.labelling.engine import LabelEngine
 from labelcalc.labelling.rulepack import RulePack, check_formula_against_packs, get_packs
+from labelcalc.ranges.parts import PartInfo, write_part
 from labelcalc.ranges.summary import label_summary
 
 
@@ -70,9 +72,11 @@ class RangeResult:
     labelled: list[str] = field(default_factory=list)  # ids of the products labelled for every market
     crashes: list[dict] = field(default_factory=list)  # unexpected errors: product, file, traceback
     files: list[dict] = field(default_factory=list)  # every file of the source and what became of it
+    parts: list[PartInfo] = field(default_factory=list)  # streamed runs: the summary rows, in part files
 
     def merge(self, other: RangeResult) -> None:
         self.rows += other.rows
+        self.parts += other.parts
         self.errors += other.errors
         self.labels += other.labels
         self.products_ok += other.products_ok
@@ -192,13 +196,30 @@ def _item_ident(it) -> tuple[str, str]:
     return it.product_id, it.file
 
 
+Hashes = tuple[dict[str, str], dict[str, str]]
+
+
+def run_hashes(library: Library, packs: list[RulePack]) -> Hashes:
+    """Rule pack hashes by market and ingredient hashes by id: computed once per run (or per worker)."""
+    return {p.market: rules_hash(p) for p in packs}, {i.id: ingredient_hash(i) for i in library.ingredients.values()}
+
+
 def run_chunk(
-    items: list, library: Library, packs: list[RulePack], index: FormulaIndex, with_labels: bool = True
+    items: list,
+    library: Library,
+    packs: list[RulePack],
+    index: FormulaIndex,
+    with_labels: bool = True,
+    part: Path | None = None,
+    hashes: Hashes | None = None,
 ) -> RangeResult:
-    """Load, compose, declare and assess a list of products (one process's share).
+    """Load, compose, declare and assess a list of products (one process's share).  With ``part``, the
+    summary rows go to that part file (sorted; see :mod:`labelcalc.ranges.parts`) instead of ``rows``.
 
     Nothing here fails the whole share: bad input becomes the product's error rows, and an unexpected
     exception becomes one error row naming the product and file plus a crash report entry."""
+    if with_labels and hashes is None:
+        hashes = run_hashes(library, packs)
     res = RangeResult()
     cache: dict = {}
     formulas: list[Formula] = []
@@ -225,13 +246,16 @@ def run_chunk(
             continue
         formulas.append(f)
     try:
-        res.merge(_label(formulas, library, packs, index, with_labels))
+        res.merge(_label(formulas, library, packs, index, hashes))
     except Exception:  # noqa: BLE001 - retry one by one so only the product that crashes is lost
         for f in formulas:
             try:
-                res.merge(_label([f], library, packs, index, with_labels))
+                res.merge(_label([f], library, packs, index, hashes))
             except Exception as exc:  # noqa: BLE001
                 _crash(res, f.id, f.file, exc)
+    if part is not None:
+        res.parts.append(write_part(part, res.rows))
+        res.rows = []
     return res
 
 
@@ -250,17 +274,16 @@ def _with_lines(f: Formula, exc: LabelError, library: Library, index: FormulaInd
 
 
 def _label(
-    formulas: list[Formula], library: Library, packs: list[RulePack], index: FormulaIndex, with_labels: bool
+    formulas: list[Formula], library: Library, packs: list[RulePack], index: FormulaIndex, hashes: Hashes | None
 ) -> RangeResult:
-    """Compose and label formulas that loaded; every failure is a product's error row."""
+    """Compose and label formulas that loaded; every failure is a product's error row.  Register records
+    are made only when ``hashes`` are given."""
     res = RangeResult()
     comps, failed = compose_many(formulas, library)
     for fid, exc in failed.items():
         f = next((g for g in formulas if g.id == fid), None)
         res.errors += _error_row(fid, _with_lines(f, exc, library, index) if f else exc)
         res.products_failed += 1
-    rhash = {p.market: rules_hash(p) for p in packs}
-    ihash: dict[str, str] = {i.id: ingredient_hash(i) for i in library.ingredients.values()}
     labelled = [c for f in formulas if f.id in comps for c in comps[f.id]]
     failed_ids: set[tuple[str, str]] = set()
     for p in packs:
@@ -273,7 +296,8 @@ def _label(
             row, declared, statements, allergens, claims = label_summary(eng, i)
             f = c.formula
             res.rows.append(row)
-            if with_labels:
+            if hashes is not None:
+                rhash, ihash = hashes
                 res.labels.append(
                     LabelRecord(
                         f.id,
@@ -303,16 +327,58 @@ def _label(
 _WORKER_STATE: dict = {}
 
 
-def _worker(args):
-    """One process's share of a range; library, packs and sub-formula index are loaded once per process
-    (the index comes from the main process, so no worker reads the whole folder again)."""
-    items, lib_path, markets, rules, index, with_labels = args
-    key = (lib_path, tuple(markets), rules, tuple(sorted(index.paths.items())))
-    if key not in _WORKER_STATE:
-        _WORKER_STATE.clear()
-        _WORKER_STATE[key] = (load_library(lib_path), get_packs(markets, rules), index)
-    library, packs, index = _WORKER_STATE[key]
-    return run_chunk(items, library, packs, index, with_labels)
+def _init_worker(lib_path: str, markets: list[str], rules: str | None, index: FormulaIndex, with_labels: bool):
+    """Once per worker process: library, packs, the sub-formula look-up from the main process (no worker
+    reads the whole folder again) and the run's hashes."""
+    library, packs = load_library(lib_path), get_packs(markets, rules)
+    _WORKER_STATE.clear()
+    _WORKER_STATE.update(
+        library=library, packs=packs, index=index, hashes=run_hashes(library, packs) if with_labels else None
+    )
+
+
+def _worker(items: list, part: Path | None) -> RangeResult:
+    """One share of a range, in a worker process."""
+    st = _WORKER_STATE
+    return run_chunk(items, st["library"], st["packs"], st["index"], st["hashes"] is not None, part, st["hashes"])
+
+
+def _classify_share(files: list[Path]) -> list[CatalogueEntry]:
+    return [classify(f) for f in files]
+
+
+def mp_context() -> multiprocessing.context.BaseContext:
+    """Worker processes start from a small server process (``forkserver``) where the platform has one, not as
+    copies of the main process: they do not carry the main process's memory (a large range's file index)."""
+    if "forkserver" in multiprocessing.get_all_start_methods():
+        ctx = multiprocessing.get_context("forkserver")
+        ctx.set_forkserver_preload(["labelcalc.ranges.rangerun", "labelcalc.ranges.publish"])
+        return ctx
+    return multiprocessing.get_context("spawn")  # pragma: no cover - platforms without fork
+
+
+def _classify_shared(files: list[Path], jobs: int) -> list[CatalogueEntry]:
+    """Classify files (each parsed) in ``jobs`` worker processes, in order."""
+    n = max(1, -(-len(files) // (jobs * 4)))
+    with ProcessPoolExecutor(max_workers=jobs, mp_context=mp_context()) as ex:
+        return [
+            e for share in ex.map(_classify_share, [files[i : i + n] for i in range(0, len(files), n)]) for e in share
+        ]
+
+
+def _share_key(it) -> str:
+    """Shares are cut from the entries in product-id order, so their rows follow one another in summary order."""
+    if isinstance(it, ProductFile):
+        return it.id
+    return it.product_id
+
+
+#: a streamed run in one process keeps the parsed data of at most this many product files from classifying
+#: them to loading them; the others are parsed again (memory stays flat on a large range)
+KEEP_PARSED = 2000
+
+#: products per share of a streamed run: bounds a worker's memory; large enough for the table operations
+STREAM_SHARE = 1000
 
 
 def run_range(
@@ -326,38 +392,51 @@ def run_range(
     chunk_size: int = 200,
     with_labels: bool = True,
     exclude: list[Path] | None = None,
+    part_dir: Path | None = None,
 ) -> RangeResult:
     """Run the whole range.  ``progress(done, total)`` is called as products finish; ``exclude``: folders whose
-    files are not the range's (the output folder when it lies inside the source)."""
+    files are not the range's (the output folder when it lies inside the source).
+
+    With ``part_dir`` the run is streamed: each share's summary rows are written to a part file there by
+    the process that labelled them, and the result lists the parts (:attr:`RangeResult.parts`, in summary
+    order) instead of holding the rows; see :mod:`labelcalc.ranges.parts`."""
     library = load_library(library_path)
     packs = get_packs(markets, rules)
-    index = index_for(source)
+    if jobs > 1 and source.is_dir():  # the files are parsed to be classified by the workers too
+        index = FormulaIndex([source], classify_all=lambda files: _classify_shared(files, jobs))
+    elif part_dir is not None and source.is_dir():  # streamed: parsed data kept for a bounded number of files
+        index = FormulaIndex([source], keep_products=KEEP_PARSED)
+    else:
+        index = index_for(source)
     items, inventory = enumerate_products(source, index, exclude)
     total = len(items)
-    lookup = index.lookup_only()
-    if jobs > 1:
-        index.forget_parsed()  # workers parse their own share
-    if jobs > 1:  # fewer, larger chunks: each carries its share of the table operations
+    if part_dir is not None:
+        items.sort(key=_share_key)
+        chunk_size = max(chunk_size, min(STREAM_SHARE, -(-total // max(jobs, 1))))
+    elif jobs > 1:  # fewer, larger chunks: each carries its share of the table operations
         chunk_size = max(chunk_size, -(-total // (jobs * 4)))
     chunks = [items[i : i + chunk_size] for i in range(0, total, chunk_size)] or [[]]
+    parts = [part_dir / f"part-{k:06d}.pickle" if part_dir is not None else None for k in range(len(chunks))]
     result = RangeResult()
     done = 0
     if progress:
         progress(0, total)
     if jobs <= 1:
-        for ch in chunks:
-            result.merge(run_chunk(ch, library, packs, index, with_labels))
+        hashes = run_hashes(library, packs) if with_labels else None
+        for ch, part in zip(chunks, parts):
+            result.merge(run_chunk(ch, library, packs, index, with_labels, part, hashes))
             done += len(ch)
             if progress:
                 progress(done, total)
     else:
-        with ProcessPoolExecutor(max_workers=jobs) as ex:
-            futs = {
-                ex.submit(
-                    _worker, (ch, str(library_path), markets, str(rules) if rules else None, lookup, with_labels)
-                ): ch
-                for ch in chunks
-            }
+        lookup = index.lookup_only()
+        index.forget_parsed()  # workers parse their own share
+        init = (str(library_path), markets, str(rules) if rules else None, lookup, with_labels)
+        with ProcessPoolExecutor(
+            max_workers=jobs, mp_context=mp_context(), initializer=_init_worker, initargs=init
+        ) as ex:
+            futs = {ex.submit(_worker, ch, part): ch for ch, part in zip(chunks, parts)}
+            del chunks
             for fut in as_completed(futs):
                 try:
                     result.merge(fut.result())
@@ -365,10 +444,11 @@ def run_range(
                     for it in futs[fut]:
                         if not isinstance(it, ItemError):
                             _crash(result, *_item_ident(it), exc)
-                done += len(futs[fut])
+                done += len(futs.pop(fut))
                 if progress:
                     progress(done, total)
     result.rows.sort(key=lambda r: (r["product_id"], r["market"], r["scenario"]))
+    result.parts.sort(key=lambda p: p.path)
     result.errors.sort(key=lambda e: (e["product_id"], e["market"], e["file"], str(e["line"]), e["message"]))
     result.crashes.sort(key=lambda c: (c["product_id"], c["file"]))
     result.files = _outcomes(inventory, result)
