@@ -77,10 +77,10 @@ def display_path(path: str | Path | None) -> str | None:
     return _shown(str(path), os.getcwd())
 
 
-@lru_cache(maxsize=65536)
+@lru_cache(maxsize=4096)
 def _shown(path: str, cwd: str) -> str:
-    """A file is named several times while it is read and labelled: resolved once per working folder
-    (a file's place does not change during a run)."""
+    """A file is named several times, one soon after another, while it is read and labelled: resolved once
+    per working folder (a file's place does not change during a run)."""
     p = Path(path)
     try:
         return str(p.resolve().relative_to(_cwd(cwd)))

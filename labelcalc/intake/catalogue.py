@@ -165,7 +165,7 @@ class FormulaIndex:
         bounded on a large range, whose other files are parsed again when loaded)."""
         self.entries: list[CatalogueEntry] = []
         self._parsed: dict[Path, object] = {}  # product files' parsed data, kept for one later load (ranges)
-        self.paths: dict[str, Path] = {}
+        self.paths: dict[str, Path | str] = {}  # str in a look-up copy (see lookup_only)
         self.kinds: dict[str, str] = {}
         self.duplicates: dict[str, list[Path]] = {}
         seen: set[Path] = set()
@@ -204,9 +204,11 @@ class FormulaIndex:
         self._parsed.clear()
 
     def lookup_only(self) -> FormulaIndex:
-        """A copy for finding sub-formulas by id only (no file list), cheap to send to worker processes."""
+        """A copy for finding sub-formulas by id only (no file list), cheap to send to worker processes: paths
+        as text (a path object takes several times the memory of its text, times every file of a range)."""
         twin = FormulaIndex([])
-        twin.paths, twin.kinds, twin.duplicates = dict(self.paths), dict(self.kinds), dict(self.duplicates)
+        twin.paths = {k: str(p) for k, p in self.paths.items()}
+        twin.kinds, twin.duplicates = dict(self.kinds), dict(self.duplicates)
         return twin
 
     def duplicate_problem(self, ident: str, file: str | None = None, **where) -> Problem:

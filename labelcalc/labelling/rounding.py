@@ -177,7 +177,10 @@ def _q_of_decimal(d: Decimal) -> int:
 def q_of(x: np.ndarray) -> np.ndarray:
     """Floats to exact 1e-9 integers, rounding the binary value as :func:`to_decimal` does (NaN -> 0;
     callers keep unknowns in a mask of their own)."""
-    return np.round(np.nan_to_num(np.asarray(x, dtype=float)) * Q).astype(np.int64)
+    a = np.asarray(x, dtype=float)
+    if not np.isfinite(a).all():  # nan_to_num is costly on the many small arrays of single labels
+        a = np.nan_to_num(a)
+    return np.round(a * Q).astype(np.int64)
 
 
 def q_scalar(v: float) -> int:
@@ -294,6 +297,11 @@ def round_values(
 def _texts(band: np.ndarray, number: np.ndarray, places: np.ndarray, fixed_text: dict[int, str]) -> list[str]:
     """Printed texts of rounded numbers: each distinct (number, places) is formatted once (a range has
     far fewer distinct rounded figures than labels)."""
+    if len(band) <= 32:  # a few labels: formatting each is cheaper than finding the distinct ones
+        return [
+            fixed_text[bi] if bi in fixed_text else text_of(num, None if pl < 0 else pl)
+            for bi, num, pl in zip(band.tolist(), number.tolist(), places.tolist())
+        ]
     out = np.empty(len(band), dtype=object)
     free = np.ones(len(band), dtype=bool)
     for i, t in fixed_text.items():

@@ -58,30 +58,103 @@ def panels_for(
 
 
 _STATE: dict = {}
+#: products per share of a range's panels (one labelling engine per market and share)
+PANEL_SHARE = 100
+
+
+def _init(lib_path: str, index: FormulaIndex | None) -> None:
+    """Once per process: the library, and the sub-formula look-up of the main process (no worker reads the
+    whole folder again)."""
+    _STATE.clear()
+    _STATE["state"] = (load_library(lib_path), index)
+
+
+def _target(item, lib: Library, index: FormulaIndex | None) -> Formula:
+    if isinstance(item, str):
+        return load_formula(Path(item), lib, _index=index) if index else load_formula(Path(item), lib)
+    if "__error__" in item.data:  # a product of a sheet
+        raise item.data["__error__"]
+    return build_formula(item.data, item.file, item.lines, lib, index or FormulaIndex([]), {})
 
 
 def _one(args):
-    """Panels of one product of a range; library and sub-formula index are loaded once per process."""
-    item, lib_path, markets, rules, out, date, search = args
-    key = (lib_path, tuple(search))
-    if key not in _STATE:
-        _STATE.clear()
-        _STATE[key] = (load_library(lib_path), FormulaIndex([Path(x) for x in search]) if search else None)
-    lib, index = _STATE[key]
+    """Panels of one product of a range (after :func:`_init` in this process)."""
+    item, markets, rules, out, date = args
+    lib, index = _STATE["state"]
     name = item if isinstance(item, str) else f"{item.file} [{item.product_id}]"
     try:
-        if isinstance(item, str):
-            target: Path | Formula = Path(item)
-        else:  # a product of a sheet
-            if "__error__" in item.data:
-                raise item.data["__error__"]
-            target = build_formula(item.data, item.file, item.lines, lib, index or FormulaIndex([]), {})
         # range runs: panel pages in the PDF, the calculation sheet as CSV (labelcalc panel adds its PDF pages)
-        return panels_for(target, lib, get_packs(markets, rules), Path(out), date, calculation_pages=False, index=index)
+        f = _target(item, lib, index)
+        return panels_for(f, lib, get_packs(markets, rules), Path(out), date, calculation_pages=False, index=index)
     except LabelError as exc:
         return [], [f"{name}: {exc}"]
     except Exception as exc:  # noqa: BLE001 - one product's drawing error must not lose the others' panels
         return [], [f"{name}: internal error while drawing ({type(exc).__name__}: {exc})"]
+
+
+def _many(share: list) -> list[tuple[list[Path], list[str]]]:
+    """Panels of a share of a range's products, as :func:`_one` gives them product by product, with one
+    labelling engine per market for the whole share (an engine's fixed cost, paid per label, was most of
+    the time of a panel)."""
+    from labelcalc.labelling.engine import LabelEngine
+    from labelcalc.labelling.record import label_record
+
+    lib, index = _STATE["state"]
+    if not share:
+        return []
+    _, markets, rules, out, date = share[0]
+    packs = get_packs(markets, rules)
+    results: list[tuple[list[Path], list[str]] | None] = [None] * len(share)
+    composed = []
+    for k, (item, *_) in enumerate(share):
+        name = item if isinstance(item, str) else f"{item.file} [{item.product_id}]"
+        try:
+            f = _target(item, lib, index)
+            composed.append((k, name, f, compose(f, lib)))
+        except LabelError as exc:
+            results[k] = ([], [f"{name}: {exc}"])
+        except Exception as exc:  # noqa: BLE001
+            results[k] = ([], [f"{name}: internal error while drawing ({type(exc).__name__}: {exc})"])
+    flat = [c for *_, comps in composed for c in comps]
+    try:
+        engines = [LabelEngine(p, flat) for p in packs]
+    except Exception:  # noqa: BLE001 - label them one by one, so only a product that fails is lost
+        return [_one(a) for a in share]
+    where = []
+    for eng in engines:
+        errs: dict[int, LabelError] = {}
+        for c, err in eng.errors:
+            errs.setdefault(id(c), err)
+        where.append(({id(c): i for i, c in enumerate(eng.comps)}, errs))
+    folder = Path(out)
+    folder.mkdir(parents=True, exist_ok=True)
+    for k, name, f, comps in composed:
+        files: list[Path] = []
+        failures: list[str] = []
+        stem = safe_name(f.id)
+        try:
+            for p, eng, (pos, errs) in zip(packs, engines, where):
+                bad = next((errs[id(c)] for c in comps if id(c) in errs), None)
+                if bad is not None:
+                    failures.append(f"{f.id} [{p.market}]: {bad}")
+                    continue
+                items = []
+                for c in comps:
+                    a = label_record(eng, pos[id(c)]).assessment
+                    checks = a.declaration.record.checks if a.declaration.record else run_checks(a)
+                    failures += [f"{f.id} [{p.market}, {c.scenario}] {x.name}: {x.detail}" for x in checks if not x.ok]
+                    items.append((a, checks))
+                pdf = write_panel_pdf(items, inside(folder, f"{stem}.{p.market}.pdf"), date, calculation=False)
+                csvp = write_calculation_csv(
+                    [a for a, _ in items], inside(folder, f"{stem}.{p.market}.calculation.csv")
+                )
+                files += [pdf, csvp]
+            results[k] = (files, failures)
+        except LabelError as exc:
+            results[k] = ([], [f"{name}: {exc}"])
+        except Exception as exc:  # noqa: BLE001
+            results[k] = ([], [f"{name}: internal error while drawing ({type(exc).__name__}: {exc})"])
+    return [r if r is not None else ([], []) for r in results]
 
 
 def write_panels(
@@ -91,28 +164,31 @@ def write_panels(
 
     Returns the files written and notes for the products that got no panel (and why)."""
     from labelcalc.intake.sources import sheet_products
+    from labelcalc.ranges.rangerun import mp_context
 
     date = date or _date.today().isoformat()
-    search = [str(source if source.is_dir() else source.parent)]
+    index = FormulaIndex([source if source.is_dir() else source.parent])
     items: list = []
     if source.is_dir():
-        index = FormulaIndex([source])
-        items = [str(p) for p in index.products if not any(p in ps for ps in index.duplicates.values())]
+        dups = {p for ps in index.duplicates.values() for p in ps}
+        items = [str(p) for p in index.products if p not in dups]
     elif source.suffix.lower() in (".csv", ".xlsx"):
         items = sheet_products(source)[0]
     elif source.suffix.lower() in (".yaml", ".yml"):
         items = [str(source)]
-    args = [
-        (it, str(lib_path), markets, str(rules) if rules else None, str(out / "panels"), date, search) for it in items
-    ]
+    args = [(it, markets, str(rules) if rules else None, str(out / "panels"), date) for it in items]
+    init = (str(lib_path), index.lookup_only())
     files: list[Path] = []
     skipped: list[str] = []
     results = []
+    size = max(1, min(PANEL_SHARE, -(-len(args) // (jobs * 4))))
+    shares = [args[i : i + size] for i in range(0, len(args), size)]
     if jobs > 1 and len(args) > 1:
-        with ProcessPoolExecutor(max_workers=jobs) as ex:
-            results = list(ex.map(_one, args, chunksize=max(1, len(args) // (jobs * 4) or 1)))
+        with ProcessPoolExecutor(max_workers=jobs, mp_context=mp_context(), initializer=_init, initargs=init) as ex:
+            results = [r for rs in ex.map(_many, shares) for r in rs]
     else:
-        results = [_one(a) for a in args]
+        _init(*init)
+        results = [r for share in shares for r in _many(share)]
     for fs, notes in results:
         files += fs
         if not fs:

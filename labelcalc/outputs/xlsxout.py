@@ -14,9 +14,12 @@ with a fixed timestamp (openpyxl stamps them with the current time).
 from __future__ import annotations
 
 import datetime as _dt
+import os
 import re
+import shutil
 import zipfile
 from collections.abc import Iterable
+from functools import lru_cache
 from pathlib import Path
 
 from openpyxl import Workbook
@@ -61,7 +64,15 @@ def _number(text):
         return None, True
     if isinstance(text, (int, float)):
         return text, True
-    m = _NUMBER_UNIT.match(str(text).strip()) or _PERCENT.match(str(text).strip())
+    if isinstance(text, str):
+        return _text_number(text)
+    return _text_number(str(text))
+
+
+@lru_cache(maxsize=65536)
+def _text_number(text: str) -> tuple[float | None, bool]:
+    """A range prints few distinct amounts: each is read once."""
+    m = _NUMBER_UNIT.match(text.strip()) or _PERCENT.match(text.strip())
     if m:
         return float(m.group(1)), True
     return None, False
@@ -255,13 +266,17 @@ def write_summary_workbook_streamed(
 
 def _fix_zip_dates(path: Path) -> None:
     """Rewrite the zip with a fixed timestamp on every entry and in the document properties, so identical
-    input gives identical bytes."""
-    with zipfile.ZipFile(path) as z:
-        entries = [(i.filename, z.read(i.filename)) for i in z.infolist()]
-    with zipfile.ZipFile(path, "w", compression=zipfile.ZIP_DEFLATED) as z:
-        for name, data in entries:
-            if name == "docProps/core.xml":  # openpyxl stamps 'modified' with the time of saving
-                data = re.sub(rb"(<dcterms:modified[^>]*>)[^<]*", rb"\g<1>2000-01-01T00:00:00Z", data)
-            info = zipfile.ZipInfo(name, date_time=(2000, 1, 1, 0, 0, 0))
+    input gives identical bytes.  Entries are copied one by one in pieces (a large range's sheet is hundreds
+    of megabytes unpacked)."""
+    fixed = path.with_name(path.name + ".dates")
+    with zipfile.ZipFile(path) as src, zipfile.ZipFile(fixed, "w", compression=zipfile.ZIP_DEFLATED) as dst:
+        for entry in src.infolist():
+            info = zipfile.ZipInfo(entry.filename, date_time=(2000, 1, 1, 0, 0, 0))
             info.compress_type = zipfile.ZIP_DEFLATED
-            z.writestr(info, data)
+            if entry.filename == "docProps/core.xml":  # openpyxl stamps 'modified' with the time of saving
+                data = re.sub(rb"(<dcterms:modified[^>]*>)[^<]*", rb"\g<1>2000-01-01T00:00:00Z", src.read(entry))
+                dst.writestr(info, data)
+                continue
+            with src.open(entry) as fin, dst.open(info, "w", force_zip64=entry.file_size > 2**31) as fout:
+                shutil.copyfileobj(fin, fout, 1 << 20)
+    os.replace(fixed, path)

@@ -212,16 +212,18 @@ def run_chunk(
     with_labels: bool = True,
     part: Path | None = None,
     hashes: Hashes | None = None,
+    subformulas: dict | None = None,
 ) -> RangeResult:
     """Load, compose, declare and assess a list of products (one process's share).  With ``part``, the
     summary rows go to that part file (sorted; see :mod:`labelcalc.ranges.parts`) instead of ``rows``.
 
     Nothing here fails the whole share: bad input becomes the product's error rows, and an unexpected
-    exception becomes one error row naming the product and file plus a crash report entry."""
+    exception becomes one error row naming the product and file plus a crash report entry.  ``subformulas``
+    carries loaded sub-formulas from share to share, so each sub-formula file is read once per process."""
     if with_labels and hashes is None:
         hashes = run_hashes(library, packs)
     res = RangeResult()
-    cache: dict = {}
+    cache: dict = dict(subformulas) if subformulas else {}
     formulas: list[Formula] = []
     for it in items:
         if isinstance(it, ItemError):
@@ -245,6 +247,8 @@ def run_chunk(
             _crash(res, pid, file, exc)
             continue
         formulas.append(f)
+    if subformulas is not None:
+        subformulas.update((k, g) for k, g in cache.items() if g.kind == "subformula")
     try:
         res.merge(_label(formulas, library, packs, index, hashes))
     except Exception:  # noqa: BLE001 - retry one by one so only the product that crashes is lost
@@ -333,14 +337,20 @@ def _init_worker(lib_path: str, markets: list[str], rules: str | None, index: Fo
     library, packs = load_library(lib_path), get_packs(markets, rules)
     _WORKER_STATE.clear()
     _WORKER_STATE.update(
-        library=library, packs=packs, index=index, hashes=run_hashes(library, packs) if with_labels else None
+        library=library,
+        packs=packs,
+        index=index,
+        hashes=run_hashes(library, packs) if with_labels else None,
+        subformulas={},
     )
 
 
 def _worker(items: list, part: Path | None) -> RangeResult:
     """One share of a range, in a worker process."""
     st = _WORKER_STATE
-    return run_chunk(items, st["library"], st["packs"], st["index"], st["hashes"] is not None, part, st["hashes"])
+    return run_chunk(
+        items, st["library"], st["packs"], st["index"], st["hashes"] is not None, part, st["hashes"], st["subformulas"]
+    )
 
 
 def _classify_share(files: list[Path]) -> list[CatalogueEntry]:
@@ -423,14 +433,15 @@ def run_range(
         progress(0, total)
     if jobs <= 1:
         hashes = run_hashes(library, packs) if with_labels else None
+        subformulas: dict = {}
         for ch, part in zip(chunks, parts):
-            result.merge(run_chunk(ch, library, packs, index, with_labels, part, hashes))
+            result.merge(run_chunk(ch, library, packs, index, with_labels, part, hashes, subformulas))
             done += len(ch)
             if progress:
                 progress(done, total)
     else:
         lookup = index.lookup_only()
-        index.forget_parsed()  # workers parse their own share
+        del index  # workers parse their own share; the main process keeps only the look-up
         init = (str(library_path), markets, str(rules) if rules else None, lookup, with_labels)
         with ProcessPoolExecutor(
             max_workers=jobs, mp_context=mp_context(), initializer=_init_worker, initargs=init
@@ -473,5 +484,6 @@ def _outcomes(inventory: list[dict], result: RangeResult) -> list[dict]:
             outcome = "not read: not a YAML file"
         else:
             outcome = f"not a product: {kind}"
-        out.append({**f, "outcome": outcome})
+        f["outcome"] = outcome  # in place: a large range's inventory is not copied
+        out.append(f)
     return out

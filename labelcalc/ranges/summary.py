@@ -32,7 +32,7 @@ class _Tables:
         for r in pack.rows:
             n = r.nutrient
             pcts = lists["percent"][n]
-            texts = {b: eng.texts(n, b) for b in eng.bases}
+            texts: dict[str, list[str]] = {b: eng.texts(n, b) for b in eng.bases}
             label = r.label if "{amount}" in r.label else None
             self.rows.append((n, label, lists["shown"][n], texts, pcts, f"{n}_percent", pb))
         eligible = [(c.claim.id, (c.verdict == VERDICT_ELIGIBLE).tolist()) for c in eng.claims]
