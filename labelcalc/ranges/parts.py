@@ -90,7 +90,7 @@ def read_rows(parts: list[PartInfo]) -> Iterator[dict]:
     if in_order(parts):
         for p in parts:
             yield from read_part(p)
-    else:  # pragma: no cover - shares overlap only if ids sort differently from how shares were cut
+    else:  # shares overlap only if ids sort differently from how shares were cut
         yield from sorted((r for p in parts for r in read_part(p)), key=row_key)
 
 
@@ -98,9 +98,9 @@ def columns(parts: list[PartInfo]) -> list[str]:
     """The summary's columns in order of first appearance, as if read row by row."""
     out: list[str] = []
     seen: set[str] = set()
-    ordered = parts if in_order(parts) else sorted(parts, key=lambda p: p.first or ("", "", ""))
-    for p in ordered:
-        for k in p.columns:
+    lists = [p.columns for p in parts] if in_order(parts) else [list(r) for r in read_rows(parts)]
+    for cols in lists:
+        for k in cols:
             if k not in seen:
                 seen.add(k)
                 out.append(k)
