@@ -332,7 +332,7 @@ def panel_cmd(
     packs = get_packs(market.split(","), rules)
     f = load_formula(formula, lib)
     check_formula_against_packs(f, packs)
-    files, failures = panels_for(formula, lib, packs, out, date or _date.today().isoformat(), _reference(f, lib, packs))
+    files, failures = panels_for(f, lib, packs, out, date or _date.today().isoformat(), _reference(f, lib, packs))
     for p in files:
         typer.echo(f"wrote {p}")
     for x in failures:

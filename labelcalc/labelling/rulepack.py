@@ -13,6 +13,7 @@ from functools import lru_cache
 from pathlib import Path
 from typing import Literal
 
+import yaml
 from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, ValidationError, model_validator
 
 from labelcalc import components as C
@@ -427,9 +428,77 @@ def load_packs(folder: str | Path | None = None) -> dict[str, RulePack]:
     return packs
 
 
+def _market_of(path: Path) -> str | None:
+    """The market code a pack file gives under ``pack: market:``, read from the file's YAML events up to that
+    value (the rest of the file is not built); None when it cannot be told this way (the file is then loaded
+    in full, which reports any problem)."""
+    stack: list[list] = []  # per open collection: [is mapping, expecting a key, current key]
+    path_keys: list[str | None] = []
+    try:
+        with path.open(encoding="utf-8") as fh:
+            for ev in yaml.parse(fh, Loader=getattr(yaml, "CSafeLoader", yaml.SafeLoader)):
+                if isinstance(ev, (yaml.MappingStartEvent, yaml.SequenceStartEvent)):
+                    if stack and stack[-1][0]:
+                        stack[-1][1] = True  # this collection is the value of the open key
+                    path_keys.append(stack[-1][2] if stack and stack[-1][0] else None)
+                    stack.append([isinstance(ev, yaml.MappingStartEvent), True, None])
+                elif isinstance(ev, (yaml.MappingEndEvent, yaml.SequenceEndEvent)):
+                    stack.pop()
+                    path_keys.pop()
+                    if not stack:
+                        return None
+                elif isinstance(ev, yaml.ScalarEvent):
+                    top = stack[-1] if stack else None
+                    if top is None or not top[0]:
+                        continue
+                    if top[1]:
+                        top[2], top[1] = ev.value, False
+                        continue
+                    top[1] = True
+                    if path_keys[1:] == ["pack"] and top[2] == "market":
+                        return ev.value
+                elif isinstance(ev, yaml.AliasEvent) and stack and stack[-1][0]:
+                    stack[-1][1] = True
+    except (yaml.YAMLError, OSError, UnicodeDecodeError):
+        return None
+    return None
+
+
+@lru_cache(maxsize=16)
+def _load_some(folder: str, codes: tuple[str, ...]) -> dict[str, RulePack] | None:
+    """The packs of ``codes`` alone, when each is given by exactly one file of the folder whose market can be
+    read from its first lines of YAML events and which loads cleanly; else None (the whole folder is loaded,
+    with its problems reported as before).  A command for one market no longer builds every pack."""
+    base = Path(folder)
+    if not base.is_dir():
+        return None
+    markets = {f: _market_of(f) for f in sorted(base.glob("*.yaml"))}
+    if any(m is None for m in markets.values()):
+        return None
+    root = base.parent if (base.parent / "energy").is_dir() else None
+    out: dict[str, RulePack] = {}
+    for code in codes:
+        files = [f for f, m in markets.items() if m == code]
+        if len(files) != 1:
+            return None
+        try:
+            p = load_pack_file(files[0], root)
+        except RuleError:
+            return None
+        if p.market != code:
+            return None
+        p._folder = folder
+        out[code] = p
+    return out
+
+
 def get_packs(codes: list[str], folder: str | Path | None = None) -> list[RulePack]:
     """Packs for market codes such as ['us', 'eu']; an unknown code is a clear error.
     A broken pack of another market does not stop the requested ones."""
+    wanted = [c.strip().lower() for c in codes]
+    some = _load_some(str(packs_dir(folder).resolve()), tuple(dict.fromkeys(wanted)))
+    if some is not None:
+        return [some[c] for c in wanted]
     packs, problems = _load_all(str(packs_dir(folder).resolve()))
     out = []
     for code in codes:
@@ -455,8 +524,11 @@ def check_formula_against_packs(f, packs: list[RulePack]) -> None:
     """What a formula says about markets must name things the rule packs know: each key of
     ``energy_methods`` a market with a pack, ``category`` a category some pack knows."""
     siblings: dict[str, RulePack] = {p.market: p for p in packs}
-    for folder in {p._folder for p in packs if p._folder}:
-        siblings.update(_load_all(folder)[0])
+    cat = f.header.category
+    known_here = set().union(*(p.categories() for p in packs)) if packs else set()
+    if any(m not in siblings for m in f.header.energy_methods or {}) or (cat is not None and cat not in known_here):
+        for folder in {p._folder for p in packs if p._folder}:  # the other packs, only when they can matter
+            siblings.update(_load_all(folder)[0])
     problems = ProblemList()
     kind = f.kind
     for m in (f.header.energy_methods or {}) if siblings else ():
