@@ -44,11 +44,12 @@ class LabelRecord:
     file: str
 
 
-@dataclass
+@dataclass(slots=True)
 class ProductFile:
-    """A product formula file of a range folder, with the id its header gives."""
+    """A product formula file of a range folder, with the id its header gives.  The path is kept as text: a
+    range holds one of these per product, and a path object takes several times the memory of its text."""
 
-    path: Path
+    path: str
     id: str
 
 
@@ -167,7 +168,7 @@ def enumerate_products(
                     )
                 )
             elif e.kind == "product":
-                items.append(ProductFile(e.path, e.id or ""))
+                items.append(ProductFile(str(e.path), e.id or ""))
         skip = [x.resolve() for x in exclude or []]
         for f in other_files(source):
             if any(f.resolve().is_relative_to(x) for x in skip):
@@ -184,7 +185,7 @@ def enumerate_products(
         files = [{"file": entry.shown, "kind": entry.kind, "id": entry.id or ""}]
         if entry.kind == "error":
             return [ItemError(source.stem, entry.problems or [])], files
-        return ([ProductFile(source, entry.id or "")] if entry.kind == "product" else []), files
+        return ([ProductFile(str(source), entry.id or "")] if entry.kind == "product" else []), files
     raise InputError(
         Problem("a range source is a folder of formula files, a .csv or an .xlsx file", file=display_path(source))
     )
