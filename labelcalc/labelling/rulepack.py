@@ -13,7 +13,6 @@ from functools import lru_cache
 from pathlib import Path
 from typing import Literal
 
-import yaml
 from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, ValidationError, model_validator
 
 from labelcalc import components as C
@@ -21,6 +20,7 @@ from labelcalc.errors import InputError, Problem, ProblemList, RuleError, Unknow
 from labelcalc.formulation.energy import Confidence, load_factor_set, rules_dir
 from labelcalc.intake.quantities import Number
 from labelcalc.intake.yamlsafe import load_yaml, pydantic_problems
+from labelcalc.labelling.packmarket import market_of
 from labelcalc.labelling.rounding import RoundingRule
 from labelcalc.labelling.rulepack_assess import Allergens, Claim, Compliance, FrontOfPack, IngredientListRule, Statement
 
@@ -428,42 +428,6 @@ def load_packs(folder: str | Path | None = None) -> dict[str, RulePack]:
     return packs
 
 
-def _market_of(path: Path) -> str | None:
-    """The market code a pack file gives under ``pack: market:``, read from the file's YAML events up to that
-    value (the rest of the file is not built); None when it cannot be told this way (the file is then loaded
-    in full, which reports any problem)."""
-    stack: list[list] = []  # per open collection: [is mapping, expecting a key, current key]
-    path_keys: list[str | None] = []
-    try:
-        with path.open(encoding="utf-8") as fh:
-            for ev in yaml.parse(fh, Loader=getattr(yaml, "CSafeLoader", yaml.SafeLoader)):
-                if isinstance(ev, (yaml.MappingStartEvent, yaml.SequenceStartEvent)):
-                    if stack and stack[-1][0]:
-                        stack[-1][1] = True  # this collection is the value of the open key
-                    path_keys.append(stack[-1][2] if stack and stack[-1][0] else None)
-                    stack.append([isinstance(ev, yaml.MappingStartEvent), True, None])
-                elif isinstance(ev, (yaml.MappingEndEvent, yaml.SequenceEndEvent)):
-                    stack.pop()
-                    path_keys.pop()
-                    if not stack:
-                        return None
-                elif isinstance(ev, yaml.ScalarEvent):
-                    top = stack[-1] if stack else None
-                    if top is None or not top[0]:
-                        continue
-                    if top[1]:
-                        top[2], top[1] = ev.value, False
-                        continue
-                    top[1] = True
-                    if path_keys[1:] == ["pack"] and top[2] == "market":
-                        return ev.value
-                elif isinstance(ev, yaml.AliasEvent) and stack and stack[-1][0]:
-                    stack[-1][1] = True
-    except (yaml.YAMLError, OSError, UnicodeDecodeError):
-        return None
-    return None
-
-
 @lru_cache(maxsize=16)
 def _load_some(folder: str, codes: tuple[str, ...]) -> dict[str, RulePack] | None:
     """The packs of ``codes`` alone, when each is given by exactly one file of the folder whose market can be
@@ -472,7 +436,7 @@ def _load_some(folder: str, codes: tuple[str, ...]) -> dict[str, RulePack] | Non
     base = Path(folder)
     if not base.is_dir():
         return None
-    markets = {f: _market_of(f) for f in sorted(base.glob("*.yaml"))}
+    markets = {f: market_of(f) for f in sorted(base.glob("*.yaml"))}
     if any(m is None for m in markets.values()):
         return None
     root = base.parent if (base.parent / "energy").is_dir() else None
