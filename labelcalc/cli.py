@@ -1178,7 +1178,7 @@ def library_from_table(
 
 def _entry_schema() -> dict:
     """A library entry: its own values and source, or a ``from_table`` reference with values on top."""
-    from labelcalc.intake.library import Ingredient
+    from labelcalc.intake.ingredient import Ingredient
     from labelcalc.tables.library import TableReference
 
     entry = Ingredient.model_json_schema()

@@ -15,7 +15,7 @@ import numpy as np
 
 from labelcalc.formulation.composition import COL, COLUMNS, Composition, ingredient_row
 from labelcalc.intake.formula import Formula
-from labelcalc.intake.library import Ingredient
+from labelcalc.intake.ingredient import Ingredient
 
 INGREDIENT, WATER_LOST, OIL_TAKEN_UP = "ingredient", "water lost", "oil taken up"
 

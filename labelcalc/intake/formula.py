@@ -21,7 +21,8 @@ from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_valida
 
 from labelcalc.errors import InputError, Problem, ProblemList, display_path
 from labelcalc.intake.catalogue import FormulaIndex
-from labelcalc.intake.library import Ingredient, Library
+from labelcalc.intake.ingredient import Ingredient
+from labelcalc.intake.library import Library
 from labelcalc.intake.quantities import Number, Quantity, parse_quantity
 from labelcalc.intake.yamlsafe import LoadedYaml, load_yaml, pydantic_problems
 

@@ -15,7 +15,7 @@ from pydantic import ValidationError
 
 from labelcalc import components as C
 from labelcalc.errors import ProblemList, display_path
-from labelcalc.intake.library import Ingredient, check_ingredient
+from labelcalc.intake.ingredient import Ingredient, check_ingredient
 
 _CSV_META = {
     "id",
