@@ -13,7 +13,7 @@ from typer.testing import CliRunner
 
 from labelcalc.cli import app
 from labelcalc.intake.formula import MAX_BATCH_LINES
-from labelcalc.intake.yamlsafe import MAX_FILE_BYTES
+from labelcalc.yamlsafe import MAX_FILE_BYTES
 
 ROOT = Path(__file__).resolve().parent
 BAD = ROOT / "data" / "bad"

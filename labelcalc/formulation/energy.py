@@ -25,7 +25,7 @@ from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_valida
 from labelcalc import components as C
 from labelcalc.errors import Problem, RuleError, UnknownNameError
 from labelcalc.formulation.composition import ATWATER_REPLACED, COL, COLUMNS, Composition
-from labelcalc.intake.yamlsafe import load_yaml, pydantic_problems
+from labelcalc.yamlsafe import load_yaml, pydantic_problems
 
 Confidence = Literal["confirmed", "secondary", "from memory — verify", "derived", "common practice"]
 

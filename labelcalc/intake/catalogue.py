@@ -23,7 +23,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from labelcalc.errors import InputError, Problem, display_path
-from labelcalc.intake.yamlsafe import load_yaml
+from labelcalc.yamlsafe import load_yaml
 
 YAML_SUFFIXES = (".yaml", ".yml")
 

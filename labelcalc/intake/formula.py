@@ -24,7 +24,7 @@ from labelcalc.intake.catalogue import FormulaIndex
 from labelcalc.intake.ingredient import Ingredient
 from labelcalc.intake.library import Library
 from labelcalc.intake.quantities import Number, Quantity, parse_quantity
-from labelcalc.intake.yamlsafe import LoadedYaml, load_yaml, pydantic_problems
+from labelcalc.yamlsafe import LoadedYaml, load_yaml, pydantic_problems
 
 Range = tuple[float, float]
 

@@ -42,7 +42,7 @@ from pydantic import ValidationError
 from labelcalc import components as C
 from labelcalc.errors import InputError, Problem, ProblemList, display_path
 from labelcalc.intake.ingredient import Ingredient, check_ingredient
-from labelcalc.intake.yamlsafe import LoadedYaml, load_yaml, pydantic_problems
+from labelcalc.yamlsafe import LoadedYaml, load_yaml, pydantic_problems
 
 
 class Library:

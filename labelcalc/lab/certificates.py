@@ -32,7 +32,7 @@ from pathlib import Path
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
 
 from labelcalc.errors import InputError, Problem, display_path
-from labelcalc.intake.yamlsafe import load_yaml, pydantic_problems
+from labelcalc.yamlsafe import load_yaml, pydantic_problems
 
 #: analyte -> (components it measures, unit, factor from the components' native unit)
 ANALYTES: dict[str, tuple[tuple[str, ...], str, float]] = {

@@ -19,10 +19,10 @@ from labelcalc import components as C
 from labelcalc.errors import InputError, Problem, ProblemList, RuleError, UnknownNameError
 from labelcalc.formulation.energy import Confidence, load_factor_set, rules_dir
 from labelcalc.intake.quantities import Number
-from labelcalc.intake.yamlsafe import load_yaml, pydantic_problems
 from labelcalc.labelling.packmarket import market_of
 from labelcalc.labelling.rounding import RoundingRule
 from labelcalc.labelling.rulepack_assess import Allergens, Claim, Compliance, FrontOfPack, IngredientListRule, Statement
+from labelcalc.yamlsafe import load_yaml, pydantic_problems
 
 Basis = Literal["per_100g", "per_serving", "per_container"]
 

@@ -164,7 +164,7 @@ def write_panels(
 
     Returns the files written and notes for the products that got no panel (and why)."""
     from labelcalc.intake.sources import sheet_products
-    from labelcalc.ranges.rangerun import mp_context
+    from labelcalc.workers import mp_context
 
     date = date or _date.today().isoformat()
     index = FormulaIndex([source if source.is_dir() else source.parent])

@@ -26,7 +26,8 @@ from labelcalc import __version__
 from labelcalc.files import atomic_write
 from labelcalc.outputs.jsonstream import Lazy
 from labelcalc.ranges import parts
-from labelcalc.ranges.rangerun import CRASH_REPORT, RangeResult, mp_context
+from labelcalc.ranges.rangerun import CRASH_REPORT, RangeResult
+from labelcalc.workers import mp_context
 
 STAGE_PREFIX = ".labelcalc-stage-"
 #: every name a range run may write at the top of its output folder

@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import hashlib
 import json
-import multiprocessing
 import traceback
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass, field
@@ -25,6 +24,7 @@ from labelcalc.labelling.engine import LabelEngine
 from labelcalc.labelling.rulepack import RulePack, check_formula_against_packs, get_packs
 from labelcalc.ranges.parts import PartInfo, write_part
 from labelcalc.ranges.summary import label_summary
+from labelcalc.workers import mp_context
 
 
 @dataclass
@@ -356,16 +356,6 @@ def _worker(items: list, part: Path | None) -> RangeResult:
 
 def _classify_share(files: list[Path]) -> list[CatalogueEntry]:
     return [classify(f) for f in files]
-
-
-def mp_context() -> multiprocessing.context.BaseContext:
-    """Worker processes start from a small server process (``forkserver``) where the platform has one, not as
-    copies of the main process: they do not carry the main process's memory (a large range's file index)."""
-    if "forkserver" in multiprocessing.get_all_start_methods():
-        ctx = multiprocessing.get_context("forkserver")
-        ctx.set_forkserver_preload(["labelcalc.ranges.rangerun", "labelcalc.ranges.publish"])
-        return ctx
-    return multiprocessing.get_context("spawn")  # pragma: no cover - platforms without fork
 
 
 def _classify_shared(files: list[Path], jobs: int) -> list[CatalogueEntry]:

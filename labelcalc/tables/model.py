@@ -20,7 +20,7 @@ from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_valida
 
 from labelcalc import components as C
 from labelcalc.errors import InputError, Problem, RuleError
-from labelcalc.intake.yamlsafe import load_yaml, pydantic_problems
+from labelcalc.yamlsafe import load_yaml, pydantic_problems
 
 _UNITS = {"g": "g", "mg": "mg", "ug": "ug", "µg": "ug", "μg": "ug", "mcg": "ug", "iu": "IU", "kcal": "kcal", "kj": "kJ"}
 

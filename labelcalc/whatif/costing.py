@@ -17,7 +17,7 @@ from pydantic import BaseModel, ConfigDict, ValidationError
 from labelcalc.errors import InputError, Problem
 from labelcalc.formulation.composition import Composition
 from labelcalc.intake.ingredient import Price
-from labelcalc.intake.yamlsafe import load_yaml, pydantic_problems
+from labelcalc.yamlsafe import load_yaml, pydantic_problems
 
 
 class PriceFile(BaseModel):

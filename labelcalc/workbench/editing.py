@@ -2,7 +2,7 @@
 
 The text is read with ruamel.yaml in round-trip mode (which keeps comments, key order and flow style) only to
 edit it; every formula is validated by the same safe loader and models as the command line
-(:mod:`labelcalc.intake.yamlsafe`, :mod:`labelcalc.intake.formula`).  A field's name is the key path the
+(:mod:`labelcalc.yamlsafe`, :mod:`labelcalc.intake.formula`).  A field's name is the key path the
 validation messages use (``batch[2].amount``), so a message lands beside its field.
 """
 
@@ -18,7 +18,7 @@ from ruamel.yaml.comments import CommentedMap, CommentedSeq
 from ruamel.yaml.error import YAMLError
 
 from labelcalc.errors import InputError, Problem
-from labelcalc.intake.yamlsafe import format_path, parse_yaml_text
+from labelcalc.yamlsafe import format_path, parse_yaml_text
 
 _PART = re.compile(r"([^.\[\]]+)|\[(\d+)\]")
 HEADER_FIELDS = [("serving", "size"), ("serving", "household"), ("servings_per_container",), ("net_quantity",)]

@@ -15,8 +15,8 @@ from labelcalc.errors import InputError, Problem
 from labelcalc.formulation.composition import Composition, compose
 from labelcalc.intake.formula import Formula, FormulaIndex, build_formula, load_formula
 from labelcalc.intake.library import Library, load_library
-from labelcalc.intake.yamlsafe import parse_yaml_text
 from labelcalc.labelling.rulepack import RulePack, get_packs, load_packs
+from labelcalc.yamlsafe import parse_yaml_text
 
 
 def load_text(p: Path, shown: str) -> str:

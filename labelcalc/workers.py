@@ -1,0 +1,16 @@
+"""Worker processes for range runs and range panels, started one way everywhere."""
+
+from __future__ import annotations
+
+import multiprocessing
+import multiprocessing.context
+
+
+def mp_context() -> multiprocessing.context.BaseContext:
+    """Worker processes start from a small server process (``forkserver``) where the platform has one, not as
+    copies of the main process: they do not carry the main process's memory (a large range's file index)."""
+    if "forkserver" in multiprocessing.get_all_start_methods():
+        ctx = multiprocessing.get_context("forkserver")
+        ctx.set_forkserver_preload(["labelcalc.ranges.rangerun", "labelcalc.ranges.publish"])
+        return ctx
+    return multiprocessing.get_context("spawn")  # pragma: no cover - platforms without fork
