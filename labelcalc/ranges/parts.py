@@ -96,15 +96,8 @@ def read_rows(parts: list[PartInfo]) -> Iterator[dict]:
 
 def columns(parts: list[PartInfo]) -> list[str]:
     """The summary's columns in order of first appearance, as if read row by row."""
-    out: list[str] = []
-    seen: set[str] = set()
     lists = [p.columns for p in parts] if in_order(parts) else [list(r) for r in read_rows(parts)]
-    for cols in lists:
-        for k in cols:
-            if k not in seen:
-                seen.add(k)
-                out.append(k)
-    return out
+    return list(dict.fromkeys(k for cols in lists for k in cols))
 
 
 def sheet_plans(parts: list[PartInfo]) -> dict[str, SheetPlan]:

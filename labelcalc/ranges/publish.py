@@ -47,14 +47,8 @@ CHANGE_COLUMNS = ["status", "product_id", "market", "scenario", "what_moved", "w
 
 
 def _columns(rows: list[dict]) -> list[str]:
-    cols: list[str] = []
-    seen = set()
-    for r in rows:
-        for k in r:
-            if k not in seen:
-                seen.add(k)
-                cols.append(k)
-    return cols
+    """Every key of the rows, in order of first appearance."""
+    return list(dict.fromkeys(k for r in rows for k in r))
 
 
 def write_csv(path: Path, rows: Iterable[dict], columns: list[str] | None = None) -> None:
