@@ -633,7 +633,7 @@ def target_cmd(
     prices: Path | None = PricesOpt,
 ):
     """The smallest replacement level that makes a claim eligible, with the resulting declaration and cost."""
-    from labelcalc.labelling.engine import claim_key
+    from labelcalc.labelling.claims_table import claim_key
     from labelcalc.whatif.explore import find_target
 
     lib = _library(formula, library)

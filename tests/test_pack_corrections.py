@@ -11,7 +11,8 @@ from claimkit import Lab, one, statement, verdict
 from labelcalc.formulation.composition import compose
 from labelcalc.intake.formula import load_formula
 from labelcalc.labelling.declare import declare
-from labelcalc.labelling.engine import LabelEngine, fop_threshold
+from labelcalc.labelling.engine import LabelEngine
+from labelcalc.labelling.front_table import fop_threshold
 from labelcalc.labelling.model import ELIGIBLE, NOT_ELIGIBLE
 from labelcalc.labelling.record import label_one, label_record
 from labelcalc.labelling.rulepack import load_packs

@@ -17,7 +17,6 @@ Exactness: thresholds and rounding bands are compared in exact 1e-9 integer arit
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from functools import cached_property
 from typing import Any
 
@@ -26,96 +25,17 @@ import numpy as np
 from labelcalc import components as C
 from labelcalc.errors import InputError, LabelError, Problem, RuleError
 from labelcalc.formulation.composition import COL, Composition
-from labelcalc.formulation.energy import EnergyTable, energy_table, load_factor_set
+from labelcalc.formulation.energy import EnergyResult, EnergyTable, energy_table, load_factor_set
+from labelcalc.labelling.claims_table import claim_key, compare
+from labelcalc.labelling.front_table import FrontOfPackTables
 from labelcalc.labelling.ingredients import allergen_report
 from labelcalc.labelling.plan import ServingPlan, energy_method, serving_plan
-from labelcalc.labelling.rounding import NONE, Q, RoundedArray, q_of, q_scalar, round_values, to_decimal
+from labelcalc.labelling.rounding import NONE, Q, RoundedArray, q_of, q_scalar, round_values
 from labelcalc.labelling.rulepack import Row, RulePack
-from labelcalc.labelling.rulepack_assess import Claim, Condition, Statement, StatementTrigger
-
-VERDICT_NOT_ELIGIBLE, VERDICT_CANNOT_TELL, VERDICT_ELIGIBLE = 0, 1, 2
-
-# why a claim figure is missing (see record.missing_text)
-MISS_NONE, MISS_VALUE, MISS_DENSITY, MISS_SERVING, MISS_REF_AMOUNT, MISS_ENERGY, MISS_ENERGY_ZERO = range(7)
-MISS_NO_REFERENCE, MISS_REFERENCE_FIGURE, MISS_REFERENCE_ZERO = 7, 8, 9
+from labelcalc.labelling.statement_table import StatementTables
 
 
-def compare(a: np.ndarray, op: str, b: float) -> np.ndarray:
-    """``a op b`` element-wise: in floating point, exactly (``Decimal``) where ``a`` is within float
-    noise of ``b`` so that a figure of exactly 3 g meets a limit of "3 g or less"."""
-    a = np.asarray(a, dtype=float)
-    res = {"<": a < b, "<=": a <= b, ">": a > b, ">=": a >= b}[op]
-    near = (np.abs(a - b) <= 1e-6 * max(1.0, abs(b))) & np.isfinite(a)
-    if near.any():
-        y = to_decimal(b)
-        for i in np.nonzero(near)[0]:
-            x = to_decimal(float(a[i]))
-            res[i] = {"<": x < y, "<=": x <= y, ">": x > y, ">=": x >= y}[op]
-    return res
-
-
-def claim_key(name: str) -> str:
-    """A claim as written in a formula ('low fat', 'Low_Fat') to a pack claim id ('low_fat')."""
-    return "_".join(name.lower().replace("-", " ").split())
-
-
-@dataclass
-class FigureTable:
-    """One claim figure for every product: value (NaN when missing), why missing, not applicable."""
-
-    value: np.ndarray
-    miss: np.ndarray  # MISS_* code per product
-    na: np.ndarray  # not applicable (e.g. the per-50 g basis for a large reference amount)
-    basis: list[str]  # the basis as applied per product (per_100ml for a liquid, per_50g...)
-    unit: str
-
-    @property
-    def missing(self) -> np.ndarray:
-        return (self.miss != MISS_NONE) & ~self.na
-
-
-@dataclass
-class CondResult:
-    """A claim condition evaluated for every product."""
-
-    cond: Condition
-    figure: FigureTable  # the product's own figure
-    value: np.ndarray  # compared value (after the comparison with the reference formula)
-    unit: str
-    holds: np.ndarray
-    missing: np.ndarray
-    na: np.ndarray
-    miss: np.ndarray
-    reference_miss: np.ndarray  # MISS_* of the reference formula's figure, where MISS_REFERENCE_FIGURE
-
-
-@dataclass
-class ClaimResult:
-    claim: Claim
-    conditions: list[CondResult]
-    alternatives: list[list[CondResult]]
-    applies: np.ndarray
-    banned: dict[int, list[str]]  # product -> ingredients of a kind that fails the claim
-    flagged: dict[int, list[str]]  # product -> ingredients of a kind the claim allows only as its rule permits
-    reference_qualifies: np.ndarray  # the reference food itself qualifies for reference_must_not_qualify
-    verdict: np.ndarray  # VERDICT_*
-
-
-@dataclass
-class TriggerResult:
-    """A statement trigger evaluated for every product."""
-
-    trigger: StatementTrigger
-    hit: np.ndarray
-    undecided: np.ndarray
-    value: np.ndarray | None = None  # components triggers: the figure compared
-    hits: list[list[str]] | None = None  # substance/kind triggers: the ingredients found
-    conditions: list[CondResult] | None = None  # with_claim triggers
-    parts: list[TriggerResult] | None = None  # all_of triggers
-    base_unknown: np.ndarray | None = None  # components triggers: the per-100 g sum is unknown
-
-
-class LabelEngine:
+class LabelEngine(StatementTables, FrontOfPackTables):
     """Labels of many compositions under one pack (see the module docstring).
 
     ``references`` gives, per composition, the composition of its reference formula (or None) for
@@ -182,6 +102,9 @@ class LabelEngine:
         self._declare()
 
     # ------------------------------------------------------------------ setup
+    def new_engine(self, comps: list[Composition]) -> LabelEngine:
+        return LabelEngine(self.pack, comps, rules_root=self.rules_root)
+
     def _check_pack(self) -> None:
         for row in self.pack.rows:
             if row.percent:
@@ -242,7 +165,7 @@ class LabelEngine:
             self.e_kj[rows], self.e_kcal[rows] = t.kj, t.kcal
         self.available = energy_table(self.V, self.U, load_factor_set("available", self.rules_root))
 
-    def declared_energy(self, i: int):
+    def declared_energy(self, i: int) -> EnergyResult:
         """The declared-energy result of product ``i`` (its market's factor set)."""
         m = self.methods[i]
         pos = int(np.searchsorted(self.energy_rows[m], i))
@@ -461,392 +384,11 @@ class LabelEngine:
         return rows[nutrient]
 
     # ------------------------------------------------------------------ claims
-    def figure(self, q: str, basis: str, kcal_per_g: float | None) -> FigureTable:
-        """A claim figure for every product on a named basis."""
-        n = self.n
-        v = self.val[q]
-        unit: str = self.pack.nutrients[q].unit
-        miss = np.where(np.isnan(v), MISS_VALUE, MISS_NONE)
-        na = np.zeros(n, dtype=bool)
-        names = [basis] * n
-        if basis in ("per_100g", "per_100g_or_100ml"):
-            if basis == "per_100g_or_100ml":
-                names = ["per_100ml" if liq else "per_100g" for liq in self.liquid]
-                no_density = self.liquid & np.isnan(self.density)
-                miss = np.where((miss == MISS_NONE) & no_density, MISS_DENSITY, miss)
-                v = np.where(self.liquid, v * self.density, v)
-            else:
-                names = ["per_100g"] * n
-        elif basis == "per_serving":
-            miss = np.where((miss == MISS_NONE) & np.isnan(self.serving), MISS_SERVING, miss)
-            v = v * self.serving / 100
-        elif basis == "per_reference_amount":
-            miss = np.where((miss == MISS_NONE) & np.isnan(self.ref_g), MISS_REF_AMOUNT, miss)
-            v = v * self.ref_g / 100
-        elif basis == "per_50g_if_small":
-            names = ["per_50g"] * n
-            na = ~np.isnan(self.ref_g) & ~self.small
-            miss = np.where((miss == MISS_NONE) & np.isnan(self.ref_g), MISS_REF_AMOUNT, miss)
-            v = v / 2
-        else:  # per_100kcal, percent_energy
-            e = self.val[self.energy_kcal_key] if self.energy_kcal_key else np.full(n, np.nan)
-            miss = np.where((miss == MISS_NONE) & np.isnan(e), MISS_ENERGY, miss)
-            miss = np.where((miss == MISS_NONE) & (np.nan_to_num(e) == 0), MISS_ENERGY_ZERO, miss)
-            with np.errstate(divide="ignore", invalid="ignore"):
-                if basis == "per_100kcal":
-                    v = np.where(e > 0, v / e * 100, np.nan)
-                else:
-                    v = np.where(e > 0, v * (kcal_per_g or 0) / e * 100, np.nan)
-                    unit = "% of energy"
-        v = np.where(miss == MISS_NONE, v, np.nan)
-        return FigureTable(v, miss, na, names, unit)
-
-    def reference_of(self, i: int) -> Composition | None:
-        """The composition of product ``i``'s reference formula, if it has one."""
-        return self._references[i]
-
-    @cached_property
-    def reference_engine(self) -> LabelEngine | None:
-        """The engine over the products' reference formulas (for comparative claims), if any."""
-        refs = [r for r in self._references if r is not None]
-        if not refs:
-            return None
-        return LabelEngine(self.pack, refs, rules_root=self.rules_root)
-
-    def reference_rows(self) -> np.ndarray:
-        """Row of each product's reference formula in :attr:`reference_engine` (-1: none or not labelled)."""
-        eng = self.reference_engine
-        rows = np.full(self.n, -1)
-        if eng is None:
-            return rows
-        where = {id(c): j for j, c in enumerate(eng.comps)}
-        for i, r in enumerate(self._references):
-            if r is not None and id(r) in where:
-                rows[i] = where[id(r)]
-        return rows
-
-    def condition(self, cond: Condition) -> CondResult:
-        """One claim condition for every product."""
-        cache = self.__dict__.setdefault("_conds", {})
-        key = id(cond)
-        if key in cache:
-            return cache[key]
-        fig = self.figure(cond.quantity, cond.basis, cond.kcal_per_g)
-        value, unit, miss = fig.value.copy(), fig.unit, fig.miss.copy()
-        ref_miss = np.full(self.n, MISS_NONE)
-        if cond.versus_reference:
-            rows = self.reference_rows()
-            eng = self.reference_engine
-            rv = np.full(self.n, np.nan)
-            if eng is not None:
-                rfig = eng.figure(cond.quantity, cond.basis, cond.kcal_per_g)
-                has = rows >= 0
-                rv[has] = rfig.value[rows[has]]
-                ref_miss[has] = np.where(rfig.na[rows[has]], MISS_NONE, rfig.miss[rows[has]])
-            own_ok = miss == MISS_NONE
-            miss = np.where(own_ok & (rows < 0), MISS_NO_REFERENCE, miss)
-            miss = np.where((miss == MISS_NONE) & (ref_miss != MISS_NONE), MISS_REFERENCE_FIGURE, miss)
-            with np.errstate(divide="ignore", invalid="ignore"):
-                if cond.versus_reference == "reduction_absolute":
-                    value = rv - fig.value
-                else:
-                    miss = np.where((miss == MISS_NONE) & (rv == 0), MISS_REFERENCE_ZERO, miss)
-                    if cond.versus_reference == "reduction_percent":
-                        value = (rv - fig.value) / rv * 100
-                    else:
-                        value = (fig.value - rv) / rv * 100
-                    unit = "%"
-            value = np.where(miss == MISS_NONE, value, np.nan)
-        na = fig.na
-        missing = (miss != MISS_NONE) & ~na
-        holds = (compare(np.nan_to_num(value), cond.op, cond.value) & ~missing) | na
-        res = CondResult(cond, fig, value, unit, holds, missing, na, miss, ref_miss)
-        cache[key] = res
-        return res
-
-    @cached_property
-    def claims(self) -> list[ClaimResult]:
-        """Every claim of the pack for every product."""
-        out = []
-        by_id = {c.id: c for c in self.pack.claims}
-        ref_rows = self.reference_rows()
-        for cl in self.pack.claims:
-            n = self.n
-            applies = np.ones(n, dtype=bool) if cl.applies_to == "any" else (self.forms == cl.applies_to)
-            conds = [self.condition(c) for c in cl.conditions]
-            failed = ~applies.copy()
-            missing = np.zeros(n, dtype=bool)
-            for cr in conds:
-                missing |= cr.missing
-                failed |= ~cr.holds & ~cr.missing
-            alts = [[self.condition(c) for c in group] for group in cl.alternatives]
-            if alts:
-                any_group = np.zeros(n, dtype=bool)
-                undecided = np.zeros(n, dtype=bool)
-                for group in alts:
-                    all_h = np.all([g.holds for g in group], axis=0)
-                    some_m = np.any([g.missing for g in group], axis=0)
-                    some_f = np.any([~g.holds & ~g.missing for g in group], axis=0)
-                    any_group |= all_h
-                    undecided |= some_m & ~some_f
-                missing |= ~any_group & undecided
-                failed |= ~any_group & ~undecided
-            banned = self.ingredients_of_kinds(cl.fails_with_ingredient_kinds)
-            if banned:
-                failed[list(banned)] = True
-            flagged = self.ingredients_of_kinds(cl.no_ingredient_kinds)
-            ref_q = np.zeros(n, dtype=bool)
-            if cl.reference_must_not_qualify and cl.reference_must_not_qualify in by_id and self.reference_engine:
-                rv = next(r for r in self.reference_engine.claims if r.claim.id == cl.reference_must_not_qualify)
-                has = ref_rows >= 0
-                ref_q[has] = rv.verdict[ref_rows[has]] == VERDICT_ELIGIBLE
-                failed |= ref_q
-            verdict = np.where(failed, VERDICT_NOT_ELIGIBLE, np.where(missing, VERDICT_CANNOT_TELL, VERDICT_ELIGIBLE))
-            out.append(ClaimResult(cl, conds, alts, applies, banned, flagged, ref_q, verdict))
-        return out
-
-    def eligible(self, i: int) -> list[str]:
-        return [c.claim.id for c in self.claims if c.verdict[i] == VERDICT_ELIGIBLE]
-
-    @cached_property
-    def intended(self) -> list[bool]:
-        """A claim is listed in the formula (any listed claim counts as made)."""
-        return [bool(f.header.claims) for f in self.products]
-
-    # -------------------------------------------------------------- statements
-    @cached_property
-    def statements(self) -> list[tuple[Statement, list[TriggerResult]]]:
-        """Each statement of the pack with its triggers evaluated for every product."""
-        return [(st, [self.trigger(t) for t in st.triggers]) for st in self.pack.statements]
-
-    @cached_property
-    def statements_listed(self) -> np.ndarray:
-        """(statements x products): the statement is required, or flagged for review because a trigger
-        cannot be decided."""
-        if not self.statements:
-            return np.zeros((0, self.n), dtype=bool)
-        return np.array(
-            [np.any([t.hit | t.undecided for t in triggers], axis=0) for _, triggers in self.statements], dtype=bool
-        ).reshape(len(self.statements), self.n)
-
-    def trigger(self, t: StatementTrigger) -> TriggerResult:
-        n = self.n
-        no = np.zeros(n, dtype=bool)
-        if t.all_of:
-            parts = [self.trigger(x) for x in t.all_of]
-            hit = np.all([p.hit for p in parts], axis=0)
-            decided_false = np.any([~p.hit & ~p.undecided for p in parts], axis=0)
-            undecided = ~hit & ~decided_false
-            return TriggerResult(t, hit, undecided, parts=parts)
-        if t.form != "any":
-            form_ok = self.liquid if t.form == "liquid" else ~self.liquid
-            inner = self.trigger(t.model_copy(update={"form": "any"}))
-            inner.trigger = t
-            inner.hit, inner.undecided = inner.hit & form_ok, inner.undecided & form_ok
-            return inner
-        if t.header_flag:
-            flag = np.array([bool(getattr(f.header, t.header_flag)) for f in self.products], dtype=bool)
-            return TriggerResult(t, flag, no)
-        if t.substance:
-            want = t.substance.lower()
-            hits = [[i.id for i in f.ingredients_used() if (i.substance or "").lower() == want] for f in self.products]
-            return TriggerResult(t, np.array([bool(h) for h in hits], dtype=bool), no, hits=hits)
-        if t.kind:
-            hits = [[i.id for i in f.ingredients_used() if t.kind in i.kinds] for f in self.products]
-            return TriggerResult(t, np.array([bool(h) for h in hits], dtype=bool), no, hits=hits)
-        if t.components:
-            v, base_unk = self._trigger_value(t)
-            unk = base_unk
-            if t.basis == "per_serving":
-                unk = unk | np.isnan(self.serving)
-                v = v * self.serving / 100
-            elif t.basis == "per_100ml":
-                unk = unk | np.isnan(self.density)
-                v = v * self.density
-            ok = ~unk
-            if t.at_least is not None:
-                hit = ok & (q_of(v) >= q_scalar(t.at_least))
-            elif t.above is not None:
-                hit = ok & (q_of(v) > q_scalar(t.above))
-            elif t.present:
-                hit = ok & (np.nan_to_num(v) > 0)
-            else:
-                hit = no
-            return TriggerResult(t, hit, unk, value=np.where(unk, np.nan, v), base_unknown=base_unk)
-        if t.with_claim:
-            made = np.array([self.intended[i] or bool(self.eligible(i)) for i in range(n)], dtype=bool)
-            conds = [self.condition(c) for c in t.conditions]
-            if conds:
-                any_hit = np.any([c.holds & ~c.missing & ~c.na for c in conds], axis=0)
-                return TriggerResult(t, made & any_hit, no, conditions=conds)
-            return TriggerResult(t, made, no, conditions=[])
-        return TriggerResult(t, no, no)
-
-    def _trigger_value(self, t: StatementTrigger) -> tuple[np.ndarray, np.ndarray]:
-        """Per-100 g sum of components, optionally only from ingredients of given kinds."""
-        comps = t.components or []
-        cols = [COL[k] for c in comps for k in C.DERIVED.get(c, (c,))]
-        if not t.from_kinds:
-            unk = np.zeros(self.n, dtype=bool)
-            for key in comps:
-                cc = [COL[k] for k in C.DERIVED.get(key, (key,))]
-                unk |= (self.U_parts if key in C.UNSPLIT_OF else self.U)[:, cc].any(axis=1)
-            return np.nan_to_num(self.V[:, cols]).sum(axis=1), unk
-        v = np.zeros(self.n)
-        want = set(t.from_kinds)
-        for i, c in enumerate(self.comps):
-            if self.kinds[i] & want:
-                x = leaf_sum(c, comps, t.from_kinds)
-                v[i] = np.nan if x is None else x
-        return np.nan_to_num(v), np.isnan(v)
-
-    # ------------------------------------------------------------ front of pack
-    @cached_property
-    def front_of_pack(self) -> list[dict]:
-        """Per scheme: exempt mask and, per nutrient, the verdict arrays."""
-        out = []
-        n = self.n
-        cat = [f.header.category for f in self.products]
-        for fop in self.pack.front_of_pack:
-            exempt = np.array([c is not None and c in fop.exempt_kinds for c in cat], dtype=bool)
-            entry: dict = {"fop": fop, "exempt": exempt, "nutrients": {}}
-            if fop.kind == "colour_bands":
-                keys = list(dict.fromkeys([*(fop.nutrients or {}), *(fop.liquid_nutrients or {})]))
-                for k in keys:
-                    use_liquid = self.liquid & (fop.liquid_nutrients is not None)
-                    band_of = [
-                        ((fop.liquid_nutrients if use_liquid[i] else fop.nutrients) or {}).get(k) for i in range(n)
-                    ]
-                    applies = np.array([b is not None for b in band_of], dtype=bool)
-                    v = np.where(use_liquid, self.val[k] * self.density, self.val[k])
-                    no_density = use_liquid & np.isnan(self.density)
-                    code = np.full(n, -1)  # -1 cannot tell, 0 low, 1 medium, 2 high
-                    portion = np.full(n, np.nan)
-                    portion_red = np.zeros(n, dtype=bool)
-                    for i in np.nonzero(applies & ~np.isnan(v))[0]:
-                        b = band_of[i]
-                        assert b is not None  # applies
-                        dq = q_scalar(float(v[i]))
-                        code[i] = 0 if dq <= q_scalar(b.low_up_to) else 2 if dq > q_scalar(b.high_above) else 1
-                        s = self.serving[i]
-                        if (
-                            not np.isnan(s)
-                            and portion_rule_applies(fop, float(s), bool(use_liquid[i]), float(self.density[i]))
-                            and b.portion_high_above is not None
-                        ):
-                            portion[i] = v[i] * s / 100
-                            if q_scalar(float(portion[i])) > q_scalar(b.portion_high_above):
-                                portion_red[i] = True
-                                code[i] = 2
-                    entry["nutrients"][k] = {
-                        "applies": applies,
-                        "value": v,
-                        "no_density": no_density,
-                        "code": code,
-                        "portion": portion,
-                        "portion_red": portion_red,
-                        "bands": band_of,
-                    }
-            else:
-                basis_g = np.fmax(self.ref_g, self.serving)  # NaN only where both are missing
-                threshold = np.array(
-                    [
-                        np.nan if (t := fop_threshold(fop, None if np.isnan(r) else float(r), c)) is None else t
-                        for r, c in zip(self.ref_g, cat)
-                    ]
-                )
-                entry["basis_g"], entry["threshold"] = basis_g, threshold
-                for k, ref_key in (fop.high_in or {}).items():
-                    ref = self.pack.reference_values[ref_key].amount
-                    pct = self.val[k] * basis_g / 100 / ref * 100
-                    high = np.array(
-                        [
-                            bool(not np.isnan(p) and not np.isnan(t) and to_decimal(float(p)) >= to_decimal(float(t)))
-                            for p, t in zip(pct, threshold)
-                        ],
-                        dtype=bool,
-                    )
-                    entry["nutrients"][k] = {"percent": pct, "high": high, "unknown": np.isnan(self.val[k])}
-            out.append(entry)
-        return out
-
-    # ---------------------------------------------------------------- reviews
-    @cached_property
-    def zero_rows(self) -> dict[str, np.ndarray]:
-        """Rows declared 0 per serving whose unrounded amount is not trivial (several servings may be eaten)."""
-        out: dict[str, np.ndarray] = {}
-        if "per_serving" not in self.bases:
-            return out
-        with np.errstate(divide="ignore", invalid="ignore"):
-            nserv = self.container / self.serving
-        for row in self.pack.rows:
-            if self.pack.nutrients[row.nutrient].unit != "g":
-                continue
-            ra = self.rounded[row.nutrient]["per_serving"]
-            v = self.column_values(row.nutrient, "per_serving")
-            rule = self.pack.rounding[row.rounding]
-            flag = np.zeros(self.n, dtype=bool)
-            cand = self.shown[row.nutrient] & self.has_col["per_serving"] & (ra.number == 0) & (np.nan_to_num(v) > 0)
-            for i in np.nonzero(cand)[0]:
-                band = rule.bands[int(ra.band[i])]
-                bound = band.below if band.below is not None else band.up_to
-                if bound is None:
-                    continue
-                ns = nserv[i]
-                flag[i] = bool(v[i] >= 0.8 * bound or (not np.isnan(ns) and ns >= 2 and v[i] * ns >= bound))
-            out[row.nutrient] = flag
-        return out
-
-
-def portion_rule_applies(fop, serving_g: float, drink: bool, density: float) -> bool:
-    """Whether a colour scheme's per-portion limits apply: foods above ``portion_rule_above_g``, drinks
-    (judged per 100 ml) above ``liquid_portion_rule_above_ml`` of portion volume (needs the density)."""
-    if drink:
-        limit = fop.liquid_portion_rule_above_ml
-        return bool(limit and not np.isnan(density) and q_scalar(serving_g / density) > q_scalar(limit))
-    return bool(fop.portion_rule_above_g and q_scalar(serving_g) > q_scalar(fop.portion_rule_above_g))
 
 
 def nutrient_components(pack: RulePack, nutrient: str) -> set[str]:
     """Leaf components a pack nutrient is built from."""
     return {k for c in pack.nutrients[nutrient].sum or {} for k in C.DERIVED.get(c, (c,))}
-
-
-def fop_threshold(fop, ref_g: float | None, category: str | None) -> float | None:
-    """The %DV threshold of a 'high in' scheme for a product: small reference amounts, main dishes, or general."""
-    for t in fop.thresholds or []:
-        if "reference_amount_up_to" in t and ref_g is not None and ref_g <= t["reference_amount_up_to"]:
-            return t["percent"]
-        if (
-            t.get("main_dish")
-            and category in t.get("categories", [])
-            and (ref_g or 0) >= t.get("reference_amount_at_least", 0)
-        ):
-            return t["percent"]
-        if set(t) == {"percent"}:
-            return t["percent"]
-    return None
-
-
-def leaf_sum(comp: Composition, components: list[str], from_kinds: list[str] | None) -> float | None:
-    """Per-100 g sum of ``components`` in ``comp``, only from ingredients of the given kinds when
-    ``from_kinds`` is set (e.g. polyols from added sweeteners); None when a value needed is unknown."""
-    if not from_kinds:
-        vals = [comp.value(k) for k in components]
-        return None if any(v is None for v in vals) else float(sum(v for v in vals if v is not None))
-    lib = {i.id: i for i in comp.formula.ingredients_used()}
-    want = set(from_kinds)
-    total = 0.0
-    for ing_id, g in comp.leaf_amounts().items():
-        ing = lib[ing_id]
-        if not set(ing.kinds) & want:
-            continue
-        for k in components:
-            for kk in C.DERIVED.get(k, (k,)):
-                if kk not in ing.values:
-                    return None
-                total += g * ing.values[kk] / 100
-    return total
 
 
 def display_unit(unit: str) -> str:

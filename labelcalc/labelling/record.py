@@ -18,7 +18,9 @@ import numpy as np
 from labelcalc import components as C
 from labelcalc.formulation.composition import COL, Composition
 from labelcalc.formulation.energy import ENERGY_GROUPS, EnergyResult
+from labelcalc.labelling import claims_table as CT
 from labelcalc.labelling import engine as E
+from labelcalc.labelling import statement_table as ST
 from labelcalc.labelling.checks import Check, run_checks
 from labelcalc.labelling.ingredients import ingredient_list
 from labelcalc.labelling.model import (
@@ -35,9 +37,14 @@ from labelcalc.labelling.model import (
 from labelcalc.labelling.plan import servings_text
 from labelcalc.labelling.rounding import format_number, to_decimal
 from labelcalc.labelling.rulepack import RulePack
+from labelcalc.labelling.tables_base import EngineTables
 from labelcalc.labelling.trace import trace_of
 
-VERDICT_TEXT = {E.VERDICT_ELIGIBLE: ELIGIBLE, E.VERDICT_NOT_ELIGIBLE: NOT_ELIGIBLE, E.VERDICT_CANNOT_TELL: CANNOT_TELL}
+VERDICT_TEXT = {
+    CT.VERDICT_ELIGIBLE: ELIGIBLE,
+    CT.VERDICT_NOT_ELIGIBLE: NOT_ELIGIBLE,
+    CT.VERDICT_CANNOT_TELL: CANNOT_TELL,
+}
 
 
 @dataclass
@@ -227,23 +234,23 @@ def declaration_of(eng: E.LabelEngine, i: int) -> Declaration:
 
 
 # ------------------------------------------------------------------ claims
-def _missing_text(eng: E.LabelEngine, q: str, code: int, i: int) -> str:
-    if code == E.MISS_VALUE:
+def _missing_text(eng: EngineTables, q: str, code: int, i: int) -> str:
+    if code == CT.MISS_VALUE:
         comp = eng.comps[i]
         energy = eng.declared_energy(i)
         return f"{q} is unknown ({', '.join(_unknown_inputs(comp, eng.pack, q, energy))})"
     return {
-        E.MISS_DENSITY: "density_g_per_ml is needed for per 100 ml",
-        E.MISS_SERVING: "no serving size",
-        E.MISS_REF_AMOUNT: "no reference amount for the product category",
-        E.MISS_ENERGY: "energy is unknown",
-        E.MISS_ENERGY_ZERO: "energy is zero",
-        E.MISS_NO_REFERENCE: "no reference formula (product.reference_formula) to compare with",
-        E.MISS_REFERENCE_ZERO: "the reference formula has none of it: a percentage change is undefined",
+        CT.MISS_DENSITY: "density_g_per_ml is needed for per 100 ml",
+        CT.MISS_SERVING: "no serving size",
+        CT.MISS_REF_AMOUNT: "no reference amount for the product category",
+        CT.MISS_ENERGY: "energy is unknown",
+        CT.MISS_ENERGY_ZERO: "energy is zero",
+        CT.MISS_NO_REFERENCE: "no reference formula (product.reference_formula) to compare with",
+        CT.MISS_REFERENCE_ZERO: "the reference formula has none of it: a percentage change is undefined",
     }.get(code, "missing")
 
 
-def _condition(eng: E.LabelEngine, cr: E.CondResult, i: int) -> tuple[bool | None, Figure, str]:
+def _condition(eng: E.LabelEngine, cr: CT.CondResult, i: int) -> tuple[bool | None, Figure, str]:
     """(holds / None when it cannot be tested, the figure, a description) of one condition for product i."""
     cond, fig = cr.cond, cr.figure
     q = cond.quantity
@@ -253,7 +260,7 @@ def _condition(eng: E.LabelEngine, cr: E.CondResult, i: int) -> tuple[bool | Non
     own = _f(fig.value[i])
     if cr.missing[i]:
         code = int(cr.miss[i])
-        if code == E.MISS_REFERENCE_FIGURE:
+        if code == CT.MISS_REFERENCE_FIGURE:
             ref = eng.reference_engine
             rows = eng.reference_rows()
             text = "reference formula: " + (
@@ -261,7 +268,7 @@ def _condition(eng: E.LabelEngine, cr: E.CondResult, i: int) -> tuple[bool | Non
             )
         else:
             text = _missing_text(eng, q, code, i)
-        basis = fig.basis[i] if fig.miss[i] in (E.MISS_NONE, E.MISS_DENSITY) else cond.basis
+        basis = fig.basis[i] if fig.miss[i] in (CT.MISS_NONE, CT.MISS_DENSITY) else cond.basis
         return (
             None,
             Figure(q, basis, own, fig.unit if own is not None else own_unit, text if own is None else None),
@@ -284,7 +291,7 @@ def _condition(eng: E.LabelEngine, cr: E.CondResult, i: int) -> tuple[bool | Non
 
 def claim_verdicts(eng: E.LabelEngine, i: int) -> list[ClaimVerdict]:
     f = eng.comps[i].formula
-    listed = {E.claim_key(c) for c in f.header.claims}
+    listed = {CT.claim_key(c) for c in f.header.claims}
     eligible = set(eng.eligible(i))
     out = []
     for cr in eng.claims:
@@ -361,7 +368,7 @@ def claim_verdicts(eng: E.LabelEngine, i: int) -> list[ClaimVerdict]:
         )
     by_id = {c.id for c in eng.pack.claims}
     for name in f.header.claims:
-        if E.claim_key(name) not in by_id:
+        if CT.claim_key(name) not in by_id:
             out.append(
                 ClaimVerdict(
                     name,
@@ -384,7 +391,7 @@ def _what(t) -> str:
     return "+".join(t.components) + (f" from {'/'.join(t.from_kinds)} ingredients" if t.from_kinds else "")
 
 
-def _trigger_words(eng: E.LabelEngine, st, tr: E.TriggerResult, i: int, claims: list[ClaimVerdict]):
+def _trigger_words(eng: E.LabelEngine, st, tr: ST.TriggerResult, i: int, claims: list[ClaimVerdict]):
     """(reason, figures) of a trigger that holds for product i."""
     t = tr.trigger
     if tr.parts is not None:
@@ -433,7 +440,7 @@ def _trigger_words(eng: E.LabelEngine, st, tr: E.TriggerResult, i: int, claims: 
     return reason, hits
 
 
-def _undecided_words(eng: E.LabelEngine, tr: E.TriggerResult, i: int) -> list[str]:
+def _undecided_words(eng: E.LabelEngine, tr: ST.TriggerResult, i: int) -> list[str]:
     if tr.parts is not None:
         return [w for p in tr.parts if p.undecided[i] for w in _undecided_words(eng, p, i)]
     t = tr.trigger
@@ -503,13 +510,13 @@ def _compensation(st, comp: Composition, serving: float, flag: StatementFlag) ->
     short = False
     for k, per_g in c.required.items():
         need = base * per_g
-        have = E.leaf_sum(comp, [k], c.from_kinds)
+        have = ST.leaf_sum(comp, [k], c.from_kinds)
         unit = C.unit_of(k)
         if have is None:
             flag.figures.append(f"{k}: required {_fmt(need)} {unit}/100 g; added amount unknown — review")
             short = True
             continue
-        ok = bool(E.compare(np.array([have]), ">=", need * 0.999999)[0])
+        ok = bool(CT.compare(np.array([have]), ">=", need * 0.999999)[0])
         flag.figures.append(
             f"{k}: required {_fmt(need)} {unit}/100 g, added {_fmt(have)} {unit}/100 g"
             + ("" if ok else f" — SHORT by {_fmt(need - have)} {unit}/100 g")

@@ -9,7 +9,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from labelcalc.labelling.engine import VERDICT_ELIGIBLE, LabelEngine
+from labelcalc.labelling.claims_table import VERDICT_ELIGIBLE
+from labelcalc.labelling.engine import LabelEngine
 from labelcalc.labelling.record import front_of_pack
 
 
