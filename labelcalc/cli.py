@@ -21,13 +21,13 @@ from labelcalc import __version__
 from labelcalc.api import find_library
 from labelcalc.errors import InputError, LabelError, Problem
 from labelcalc.formulation.composition import compose
-from labelcalc.formulation.energy import energy_by_line, energy_of, load_factor_set, rules_dir
+from labelcalc.formulation.energy import energy_of, load_factor_set, rules_dir
 from labelcalc.intake.formula import load_formula
 from labelcalc.intake.library import load_library
 from labelcalc.labelling.declare import declare
 from labelcalc.labelling.rounding import plain_label
 from labelcalc.labelling.rulepack import check_formula_against_packs, get_packs, load_pack_file, load_packs
-from labelcalc.outputs.jsondoc import declaration_dict
+from labelcalc.outputs.jsondoc import composition_dict, declaration_dict
 from labelcalc.outputs.textreport import compose_text, declare_text
 
 # Plain help (no rich panels): option lists read "--out PATH", flags carry no "<bool>" and arguments
@@ -116,96 +116,6 @@ def _energy_sets() -> list[str]:
     return ["available"] + [i for i in ids if i != "available"]
 
 
-def compose_document(formula, comps) -> dict:
-    """The documented JSON form of ``labelcalc compose`` (see README)."""
-    from labelcalc import components as C
-
-    sets = [load_factor_set(i) for i in _energy_sets()]
-    serving = formula.serving_grams()
-    out = []
-    for c in comps:
-        energies = {}
-        for fs in sets:
-            e = energy_of(c, fs)
-            energies[fs.id] = {
-                "kind": "available" if fs.id == "available" else "declared basis",
-                "kj_per_100g": e.kj,
-                "kcal_per_100g": e.kcal,
-                "kj_per_serving": e.per_serving(serving)[0],
-                "kcal_per_serving": e.per_serving(serving)[1],
-                "by_component_kcal_per_100g": e.by_component_kcal,
-                "by_line_kcal_per_100g": {lab: kc for lab, _, kc in energy_by_line(c, fs)},
-                "unknown_because": e.unknown_because,
-                "reviews": [r.strip() for r in e.reviews],
-                "source": f"{fs.factor_set.instrument}, {fs.factor_set.section}",
-            }
-        labels, rows = c.contributions
-        out.append(
-            {
-                "scenario": c.scenario,
-                "batch_g": c.batch_grams,
-                "finished_g": c.finished_grams,
-                "steps": [
-                    {
-                        "name": s.name,
-                        "water_lost_g": s.water_lost_g,
-                        "oil_taken_up_g": s.oil_taken_up_g,
-                        "oil": s.oil_ref,
-                        "mass_after_g": s.mass_after_g,
-                    }
-                    for s in c.steps
-                ],
-                "per_100g": {k: c.value(k) for k in C.KEYS},
-                "per_serving": {k: c.per_serving(k) for k in C.KEYS} if serving else None,
-                "units": {k: C.BY_KEY[k].unit for k in C.KEYS},
-                "unknown": {k: c.unknown_inputs(k) for k in c.unknown_components},
-                "contributions_per_100g": {
-                    lab: {k: (None if row[i] != row[i] else float(row[i])) for i, k in enumerate(C.KEYS)}
-                    for lab, row in zip(labels, rows)
-                },
-                "energy": energies,
-            }
-        )
-    return {
-        "ingredient_values": {
-            ing.id: {
-                "source": ing.source,
-                "nitrogen_factor": ing.nitrogen_factor,
-                "per_100g": {
-                    k: {"value": v, "unit": C.unit_of(k), "source": src, "basis": basis}
-                    for k, (v, src, basis) in ing.provenance().items()
-                },
-            }
-            for ing in formula.ingredients_used()
-        },
-        "assumed_zero": [
-            {"ingredient": ing, "components": parts, "reason": reason} for ing, parts, reason in comps[0].assumptions
-        ]
-        if comps
-        else [],
-        "product": {
-            "id": formula.id,
-            "name": formula.header.name,
-            "version": formula.header.version,
-            "file": formula.file,
-            "content_hash": formula.content_hash,
-            "serving_g": serving,
-            "fried": formula.is_fried,
-            "has_range": formula.has_range,
-        },
-        "scenarios": out,
-        "notes": (
-            [
-                "Fried product: oil uptake and moisture loss are estimates; laboratory analysis of fat and moisture is "
-                "the usual confirmation."
-            ]
-            if formula.is_fried
-            else []
-        ),
-        "draft_notice": "DRAFT — verify against current local regulation and a qualified regulatory professional.",
-    }
-
-
 @app.command("compose")
 @friendly
 def compose_cmd(
@@ -217,7 +127,11 @@ def compose_cmd(
     lib, f = _load(formula, library)
     comps = compose(f, lib)
     if as_json:
-        typer.echo(json.dumps(compose_document(f, comps), indent=2, ensure_ascii=False))
+        typer.echo(
+            json.dumps(
+                composition_dict(f, comps, [load_factor_set(i) for i in _energy_sets()]), indent=2, ensure_ascii=False
+            )
+        )
         return
     sets = [load_factor_set(i) for i in _energy_sets()]
     energies = {f.id: [[energy_of(c, fs) for fs in sets] for c in comps]}
@@ -355,10 +269,6 @@ def _prices(path):
     return load_prices(path)
 
 
-def _pct(a, b):
-    return None if a is None or b is None or b == 0 else (a - b) / b * 100
-
-
 @app.command("compare")
 @friendly
 def compare_cmd(
@@ -372,7 +282,7 @@ def compare_cmd(
     as_json: bool = JsonOpt,
 ):
     """Formulas side by side: energy, declared values, claims gained or lost, statements, cost."""
-    from labelcalc.whatif.explore import figures
+    from labelcalc.whatif.explore import comparison_rows, figures_many
 
     if len(formulas) < 2:
         raise LabelError("compare needs at least two formula files")
@@ -380,43 +290,7 @@ def compare_cmd(
     packs = get_packs(market.split(","), rules)
     pr = _prices(prices)
     loaded = [load_formula(p, lib) for p in formulas]
-    pts = [figures(f, lib, packs, f.id, pr) for f in loaded]
-    base = pts[0]
-    doc = []
-    for f, fp in zip(loaded, pts):
-        for p, b in zip(fp, base):
-            doc.append(
-                {
-                    "formula": f.id,
-                    "market": p.market,
-                    "scenario": p.scenario,
-                    "available_kcal_per_serving": p.available_kcal_per_serving,
-                    "declared_kcal_per_serving": p.declared_kcal_per_serving,
-                    "available_kcal_per_100g": p.available_kcal_per_100g,
-                    "declared_kcal_per_100g": p.declared_kcal_per_100g,
-                    "change_available_kcal_per_serving": None
-                    if p.available_kcal_per_serving is None or b.available_kcal_per_serving is None
-                    else p.available_kcal_per_serving - b.available_kcal_per_serving,
-                    "change_available_percent": _pct(p.available_kcal_per_serving, b.available_kcal_per_serving),
-                    "change_declared_percent": _pct(p.declared_kcal_per_serving, b.declared_kcal_per_serving),
-                    "declared": p.declared,
-                    "declared_changed": {
-                        k: [b.declared.get(k), v] for k, v in p.declared.items() if b.declared.get(k) != v
-                    },
-                    "claims_gained": sorted(set(p.claims) - set(b.claims)),
-                    "claims_lost": sorted(set(b.claims) - set(p.claims)),
-                    "statements_added": sorted(set(p.statements) - set(b.statements)),
-                    "statements_removed": sorted(set(b.statements) - set(p.statements)),
-                    "cost_per_serving": p.cost_per_serving,
-                    "cost_per_kg": p.cost_per_kg,
-                    "currency": p.currency,
-                    "cost_change_per_serving": None
-                    if p.cost_per_serving is None or b.cost_per_serving is None
-                    else p.cost_per_serving - b.cost_per_serving,
-                    "cost_per_kcal_saved_per_serving": _cost_per_kcal(p, b),
-                    "missing_prices": p.extra["missing_prices"],
-                }
-            )
+    doc = comparison_rows(loaded, figures_many([(f.id, f) for f in loaded], lib, packs, pr))
     if as_json:
         typer.echo(
             json.dumps({"compared": [f.id for f in loaded], "basis": loaded[0].id, "rows": doc}, indent=2, default=str)
@@ -476,13 +350,6 @@ def compare_cmd(
             )
 
 
-def _cost_per_kcal(p, b):
-    if None in (p.cost_per_serving, b.cost_per_serving, p.available_kcal_per_serving, b.available_kcal_per_serving):
-        return None
-    saved = b.available_kcal_per_serving - p.available_kcal_per_serving
-    return None if saved <= 0 else (p.cost_per_serving - b.cost_per_serving) / saved
-
-
 ReplaceOpt = typer.Option(
     ...,
     "--replace",
@@ -513,7 +380,7 @@ def sweep_cmd(
     from labelcalc.files import inside, safe_name
     from labelcalc.outputs.charts import sweep_chart, sweep_series
     from labelcalc.ranges.publish import write_csv, write_json
-    from labelcalc.whatif.explore import first_levels, sweep
+    from labelcalc.whatif.explore import cost_per_kcal_saved, first_levels, sweep
 
     if step <= 0 or stop < start:
         raise LabelError("--step must be above 0 and --to at least --from")
@@ -543,7 +410,7 @@ def sweep_cmd(
                     "declared_kcal_per_100g": p.declared_kcal_per_100g,
                     "cost_per_serving": p.cost_per_serving,
                     "currency": p.currency,
-                    "cost_per_kcal_saved_per_serving": _cost_per_kcal(p, b),
+                    "cost_per_kcal_saved_per_serving": cost_per_kcal_saved(p, b),
                     "claims_eligible": "; ".join(p.claims),
                     "statements_required": "; ".join(p.statements),
                     "front_of_pack": "; ".join(f"{k}={v}" for k, v in p.front_of_pack.items()),

@@ -297,3 +297,58 @@ def find_target(
         pts,
         "the claim cannot be reached by this substitution, even at 100 %",
     )
+
+
+def _pct(a, b):
+    return None if a is None or b is None or b == 0 else (a - b) / b * 100
+
+
+def cost_per_kcal_saved(p: Point, b: Point) -> float | None:
+    """Extra cost per serving for each kcal of available energy saved per serving against ``b`` (None: none
+    saved, or a price or figure unknown)."""
+    if None in (p.cost_per_serving, b.cost_per_serving, p.available_kcal_per_serving, b.available_kcal_per_serving):
+        return None
+    saved = b.available_kcal_per_serving - p.available_kcal_per_serving  # type: ignore[operator]
+    return None if saved <= 0 else (p.cost_per_serving - b.cost_per_serving) / saved  # type: ignore[operator]
+
+
+def comparison_rows(loaded: list[Formula], pts: list[list[Point]]) -> list[dict]:
+    """Each formula's points beside the first formula's (the basis): energy and cost changes, declared figures
+    that changed, claims gained or lost, statements added or removed."""
+    base = pts[0]
+    doc = []
+    for f, fp in zip(loaded, pts):
+        for p, b in zip(fp, base):
+            doc.append(
+                {
+                    "formula": f.id,
+                    "market": p.market,
+                    "scenario": p.scenario,
+                    "available_kcal_per_serving": p.available_kcal_per_serving,
+                    "declared_kcal_per_serving": p.declared_kcal_per_serving,
+                    "available_kcal_per_100g": p.available_kcal_per_100g,
+                    "declared_kcal_per_100g": p.declared_kcal_per_100g,
+                    "change_available_kcal_per_serving": None
+                    if p.available_kcal_per_serving is None or b.available_kcal_per_serving is None
+                    else p.available_kcal_per_serving - b.available_kcal_per_serving,
+                    "change_available_percent": _pct(p.available_kcal_per_serving, b.available_kcal_per_serving),
+                    "change_declared_percent": _pct(p.declared_kcal_per_serving, b.declared_kcal_per_serving),
+                    "declared": p.declared,
+                    "declared_changed": {
+                        k: [b.declared.get(k), v] for k, v in p.declared.items() if b.declared.get(k) != v
+                    },
+                    "claims_gained": sorted(set(p.claims) - set(b.claims)),
+                    "claims_lost": sorted(set(b.claims) - set(p.claims)),
+                    "statements_added": sorted(set(p.statements) - set(b.statements)),
+                    "statements_removed": sorted(set(b.statements) - set(p.statements)),
+                    "cost_per_serving": p.cost_per_serving,
+                    "cost_per_kg": p.cost_per_kg,
+                    "currency": p.currency,
+                    "cost_change_per_serving": None
+                    if p.cost_per_serving is None or b.cost_per_serving is None
+                    else p.cost_per_serving - b.cost_per_serving,
+                    "cost_per_kcal_saved_per_serving": cost_per_kcal_saved(p, b),
+                    "missing_prices": p.extra["missing_prices"],
+                }
+            )
+    return doc
