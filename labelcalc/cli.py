@@ -380,7 +380,7 @@ def sweep_cmd(
     from labelcalc.files import inside, safe_name
     from labelcalc.outputs.charts import sweep_chart, sweep_series
     from labelcalc.ranges.publish import write_csv, write_json
-    from labelcalc.whatif.explore import cost_per_kcal_saved, first_levels, sweep
+    from labelcalc.whatif.explore import first_levels, sweep, sweep_rows
 
     if step <= 0 or stop < start:
         raise LabelError("--step must be above 0 and --to at least --from")
@@ -394,29 +394,7 @@ def sweep_cmd(
         x += step
     rows = sweep(f, lib, packs, replace, with_, levels, _prices(prices), ref)
     firsts = first_levels(rows)
-    table_rows = []
-    base_cost = {(p.market, p.scenario): p for p in rows[0][1]}
-    for lvl, pts in rows:
-        for p in pts:
-            b = base_cost[(p.market, p.scenario)]
-            table_rows.append(
-                {
-                    "level_percent": lvl,
-                    "market": p.market,
-                    "scenario": p.scenario,
-                    "available_kcal_per_serving": p.available_kcal_per_serving,
-                    "declared_kcal_per_serving": p.declared_kcal_per_serving,
-                    "available_kcal_per_100g": p.available_kcal_per_100g,
-                    "declared_kcal_per_100g": p.declared_kcal_per_100g,
-                    "cost_per_serving": p.cost_per_serving,
-                    "currency": p.currency,
-                    "cost_per_kcal_saved_per_serving": cost_per_kcal_saved(p, b),
-                    "claims_eligible": "; ".join(p.claims),
-                    "statements_required": "; ".join(p.statements),
-                    "front_of_pack": "; ".join(f"{k}={v}" for k, v in p.front_of_pack.items()),
-                    **{f"declared:{k}": v for k, v in p.declared.items()},
-                }
-            )
+    table_rows = sweep_rows(rows)
     out.mkdir(parents=True, exist_ok=True)
     stem = safe_name(f"{f.id}.{replace}-to-{with_}")
     csvp, jsonp = inside(out, stem + ".csv"), inside(out, stem + ".json")

@@ -154,6 +154,13 @@ def _limits(rule: ComplianceRule, declared: float, declared_100g: float) -> tupl
     return (None if lo is None else max(lo, 0.0)), hi
 
 
+def _not_judged(r, analysed: float | None, why: str) -> RowVerdict:
+    """A declared row the certificate or the pack gives no way to judge."""
+    return RowVerdict(
+        r.nutrient, plain_label(r.label), r.unit, "-", "", None, analysed, (None, None), NOT_JUDGED, "", "-", "-", [why]
+    )
+
+
 def verify(
     comp: Composition, decl: Declaration, lab: LabFile, *, margin_percent: float = 5.0, force: bool = False
 ) -> VerifyReport:
@@ -177,43 +184,11 @@ def verify(
         if res is None and rule is not None and rule.only_if_all_of:
             res, factor = _whole_result(rule.only_if_all_of, lab)
         if res is None:
-            rows.append(
-                RowVerdict(
-                    r.nutrient,
-                    plain_label(r.label),
-                    r.unit,
-                    "-",
-                    "",
-                    None,
-                    None,
-                    (None, None),
-                    NOT_JUDGED,
-                    "",
-                    "-",
-                    "-",
-                    [note or "not analysed on this certificate"],
-                )
-            )
+            rows.append(_not_judged(r, None, note or "not analysed on this certificate"))
             continue
         used_results.add(res.analyte)
         if rule is None:
-            rows.append(
-                RowVerdict(
-                    r.nutrient,
-                    plain_label(r.label),
-                    r.unit,
-                    "-",
-                    "",
-                    None,
-                    res.value,
-                    (None, None),
-                    NOT_JUDGED,
-                    "",
-                    "-",
-                    "-",
-                    ["no compliance rule in the pack covers this row"],
-                )
-            )
+            rows.append(_not_judged(r, res.value, "no compliance rule in the pack covers this row"))
             continue
         basis = (
             rule.basis

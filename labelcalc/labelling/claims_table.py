@@ -140,8 +140,10 @@ class ClaimTables(EngineTables):
             return None
         return self.new_engine(refs)
 
+    @cached_property
     def reference_rows(self) -> np.ndarray:
-        """Row of each product's reference formula in :attr:`reference_engine` (-1: none or not labelled)."""
+        """Row of each product's reference formula in :attr:`reference_engine` (-1: none or not labelled);
+        worked out once per engine."""
         eng = self.reference_engine
         rows = np.full(self.n, -1)
         if eng is None:
@@ -162,7 +164,7 @@ class ClaimTables(EngineTables):
         value, unit, miss = fig.value.copy(), fig.unit, fig.miss.copy()
         ref_miss = np.full(self.n, MISS_NONE)
         if cond.versus_reference:
-            rows = self.reference_rows()
+            rows = self.reference_rows
             eng = self.reference_engine
             rv = np.full(self.n, np.nan)
             if eng is not None:
@@ -196,7 +198,7 @@ class ClaimTables(EngineTables):
         """Every claim of the pack for every product."""
         out = []
         by_id = {c.id: c for c in self.pack.claims}
-        ref_rows = self.reference_rows()
+        ref_rows = self.reference_rows
         for cl in self.pack.claims:
             n = self.n
             applies = np.ones(n, dtype=bool) if cl.applies_to == "any" else (self.forms == cl.applies_to)

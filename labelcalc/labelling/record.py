@@ -262,7 +262,7 @@ def _condition(eng: E.LabelEngine, cr: CT.CondResult, i: int) -> tuple[bool | No
         code = int(cr.miss[i])
         if code == CT.MISS_REFERENCE_FIGURE:
             ref = eng.reference_engine
-            rows = eng.reference_rows()
+            rows = eng.reference_rows
             text = "reference formula: " + (
                 _missing_text(ref, q, int(cr.reference_miss[i]), int(rows[i])) if ref is not None else "missing"
             )

@@ -312,6 +312,38 @@ def cost_per_kcal_saved(p: Point, b: Point) -> float | None:
     return None if saved <= 0 else (p.cost_per_serving - b.cost_per_serving) / saved  # type: ignore[operator]
 
 
+def _energy_fields(p: Point) -> dict:
+    """Market, scenario and energy of a point, as every what-if table starts its row."""
+    return {
+        "market": p.market,
+        "scenario": p.scenario,
+        "available_kcal_per_serving": p.available_kcal_per_serving,
+        "declared_kcal_per_serving": p.declared_kcal_per_serving,
+        "available_kcal_per_100g": p.available_kcal_per_100g,
+        "declared_kcal_per_100g": p.declared_kcal_per_100g,
+    }
+
+
+def sweep_rows(rows: list[tuple[float, list[Point]]]) -> list[dict]:
+    """One table row per level, market and scenario of a sweep, costs against the first level."""
+    base = {(p.market, p.scenario): p for p in rows[0][1]}
+    return [
+        {
+            "level_percent": lvl,
+            **_energy_fields(p),
+            "cost_per_serving": p.cost_per_serving,
+            "currency": p.currency,
+            "cost_per_kcal_saved_per_serving": cost_per_kcal_saved(p, base[(p.market, p.scenario)]),
+            "claims_eligible": "; ".join(p.claims),
+            "statements_required": "; ".join(p.statements),
+            "front_of_pack": "; ".join(f"{k}={v}" for k, v in p.front_of_pack.items()),
+            **{f"declared:{k}": v for k, v in p.declared.items()},
+        }
+        for lvl, pts in rows
+        for p in pts
+    ]
+
+
 def comparison_rows(loaded: list[Formula], pts: list[list[Point]]) -> list[dict]:
     """Each formula's points beside the first formula's (the basis): energy and cost changes, declared figures
     that changed, claims gained or lost, statements added or removed."""
@@ -322,12 +354,7 @@ def comparison_rows(loaded: list[Formula], pts: list[list[Point]]) -> list[dict]
             doc.append(
                 {
                     "formula": f.id,
-                    "market": p.market,
-                    "scenario": p.scenario,
-                    "available_kcal_per_serving": p.available_kcal_per_serving,
-                    "declared_kcal_per_serving": p.declared_kcal_per_serving,
-                    "available_kcal_per_100g": p.available_kcal_per_100g,
-                    "declared_kcal_per_100g": p.declared_kcal_per_100g,
+                    **_energy_fields(p),
                     "change_available_kcal_per_serving": None
                     if p.available_kcal_per_serving is None or b.available_kcal_per_serving is None
                     else p.available_kcal_per_serving - b.available_kcal_per_serving,
