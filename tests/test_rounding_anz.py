@@ -108,25 +108,26 @@ def test_daily_intake_reference_values(pack, key, amount_unit):
     assert (rv.amount, rv.unit) == amount_unit
 
 
-# Schedule 1, S1—2: recommended dietary intakes (RDIs) used for %RDI (from memory — verify).
+# Schedule 1, S1—2 (vitamins) and S1—3 (minerals): recommended dietary intakes (RDIs) used for %RDI.
+# Marked "read" where the value was read in S1—2; the minerals and vitamins D and E were not (from memory — verify).
 RDI = {
-    "rdi_vitamin_a": (750, "ug"),  # S1—2 (from memory — verify)
-    "rdi_vitamin_c": (40, "mg"),  # S1—2 (from memory — verify)
-    "rdi_calcium": (800, "mg"),  # S1—2 (from memory — verify)
-    "rdi_iron": (12, "mg"),  # S1—2 (from memory — verify)
+    "rdi_vitamin_a": (750, "ug"),  # Schedule 1, S1—2 (F2015L00491, compilation 2018-11-29), read
+    "rdi_vitamin_c": (40, "mg"),  # Schedule 1, S1—2 (F2015L00491, compilation 2018-11-29), read
+    "rdi_calcium": (800, "mg"),  # S1—3 (from memory — verify)
+    "rdi_iron": (12, "mg"),  # S1—3 (from memory — verify)
     "rdi_vitamin_d": (10, "ug"),  # S1—2 (from memory — verify)
     "rdi_vitamin_e": (10, "mg"),  # S1—2 (from memory — verify)
-    "rdi_thiamin": (1.1, "mg"),  # S1—2 (from memory — verify)
-    "rdi_riboflavin": (1.7, "mg"),  # S1—2 (from memory — verify)
-    "rdi_niacin": (10, "mg"),  # S1—2 (from memory — verify)
-    "rdi_vitamin_b6": (1.6, "mg"),  # S1—2 (from memory — verify)
-    "rdi_folate": (200, "ug"),  # S1—2 (from memory — verify)
-    "rdi_vitamin_b12": (2, "ug"),  # S1—2 (from memory — verify)
-    "rdi_phosphorus": (1000, "mg"),  # S1—2 (from memory — verify)
-    "rdi_iodine": (150, "ug"),  # S1—2 (from memory — verify)
-    "rdi_magnesium": (320, "mg"),  # S1—2 (from memory — verify)
-    "rdi_zinc": (12, "mg"),  # S1—2 (from memory — verify)
-    "rdi_selenium": (70, "ug"),  # S1—2 (from memory — verify)
+    "rdi_thiamin": (1.1, "mg"),  # Schedule 1, S1—2 (F2015L00491, compilation 2018-11-29), read
+    "rdi_riboflavin": (1.7, "mg"),  # Schedule 1, S1—2 (F2015L00491, compilation 2018-11-29), read
+    "rdi_niacin": (10, "mg"),  # Schedule 1, S1—2 (F2015L00491, compilation 2018-11-29), read
+    "rdi_vitamin_b6": (1.6, "mg"),  # Schedule 1, S1—2 (F2015L00491, compilation 2018-11-29), read
+    "rdi_folate": (200, "ug"),  # Schedule 1, S1—2 (F2015L00491, compilation 2018-11-29), read
+    "rdi_vitamin_b12": (2, "ug"),  # Schedule 1, S1—2 (F2015L00491, compilation 2018-11-29), read
+    "rdi_phosphorus": (1000, "mg"),  # S1—3 (from memory — verify)
+    "rdi_iodine": (150, "ug"),  # S1—3 (from memory — verify)
+    "rdi_magnesium": (320, "mg"),  # S1—3 (from memory — verify)
+    "rdi_zinc": (12, "mg"),  # S1—3 (from memory — verify)
+    "rdi_selenium": (70, "ug"),  # S1—3 (from memory — verify)
 }
 
 
