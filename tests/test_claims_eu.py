@@ -6,8 +6,8 @@ the formula = per 100 g of the ingredient; energy by Reg. (EU) No 1169/2011 Anne
 
 * Reg. (EC) No 1924/2006, Annex (nutrition claims and conditions), as amended by Reg. (EU) No 1047/2012 —
   conditions quoted by the University of Reading food-law guide, FSAI, the FSA labelling e-learning and others
-  (see the pack header); "high [vitamin/mineral]" (twice "source of") and the 1047/2012 extra conditions of
-  "reduced saturated fat" / "reduced sugars" are from memory — verify.
+  (see the pack header); "high [vitamin/mineral]" (twice "source of") is from memory — verify; the 1047/2012
+  extra conditions of "reduced saturated fat" / "reduced sugars" were read in a law firm's summary (secondary).
 * Reg. (EU) No 1169/2011 Annex III (points 2.1-2.4 read on legislation.gov.uk; point 4.1 in agency summaries),
   Annex II and Art. 21 (allergens), Art. 18 and Annex VII Part A point 1 (added water), Art. 22 and Annex VIII
   points 3 and 4(a) (QUID after moisture loss).
@@ -372,7 +372,7 @@ def test_light_claims_carry_the_characteristic_text(lab):
 
 
 def test_reduced_sugars_needs_energy_not_higher(lab):
-    # 1924/2006 Annex 'reduced sugars' as amended by 1047/2012: energy not above the similar product (from memory)
+    # 1924/2006 Annex 'reduced sugars' as amended by 1047/2012: energy not above the similar product (law firm's summary, secondary)
     ok = lab.one({"sugars": 7, "starch": 3}, reference={"sugars": 10})
     assert verdict(ok, "reduced_sugars").verdict == ELIGIBLE
     more_energy = lab.one({"sugars": 7, "fat": 2}, reference={"sugars": 10})
@@ -381,7 +381,7 @@ def test_reduced_sugars_needs_energy_not_higher(lab):
 
 
 def test_reduced_saturated_fat_trans_not_higher(lab):
-    # 1047/2012: saturated + trans >= 30 % less, and trans fatty acids not above the similar product (from memory)
+    # 1047/2012: saturated + trans >= 30 % less, and trans fatty acids not above the similar product (law firm's summary, secondary)
     ref = {"fat": 10, "saturated_fa": 5, "trans_fa": 0.1}
     assert (
         verdict(
