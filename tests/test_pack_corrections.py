@@ -271,10 +271,11 @@ def _liquorice(lab, fid, mg_per_100g, *, liquid=False):
         (9.9, False, False, False),  # confectionery: 100 mg/kg = 10 mg per 100 g
         (10, False, True, False),
         (399, False, True, False),
-        (400, False, True, True),  # 4 g/kg: hypertension warning (from memory — verify)
+        # 4 g/kg: hypertension warning (NI SR 2005/198 reg. 34C(3)(a), the rule Annex III took over)
+        (400, False, True, True),
         (0.99, True, False, False),  # beverages: 10 mg/l = 1 mg per 100 ml
         (1, True, True, False),
-        (5, True, True, True),  # 50 mg/l (from memory — verify)
+        (5, True, True, True),  # 50 mg/l (NI SR 2005/198 reg. 34C(3)(c), drinks up to 1.2 % vol)
     ],
 )
 def test_liquorice_statements(lab, market, mg, liquid, plain, warning):

@@ -216,26 +216,26 @@ REFERENCE_VALUES = {
     "vitamin_a": (900, "ug"),  # (c)(8)(iv), mcg RAE
     "vitamin_e": (15, "mg"),  # (c)(8)(iv), mg alpha-tocopherol
     "vitamin_k": (120, "ug"),  # (c)(8)(iv)
-    "vitamin_c": (90, "mg"),  # (c)(8)(iv) (CSPI list of the 2016 DVs, secondary)
-    "thiamin": (1.2, "mg"),  # (c)(8)(iv) (CSPI list of the 2016 DVs, secondary)
-    "riboflavin": (1.3, "mg"),  # (c)(8)(iv) (FDA Vitamins and Minerals Chart (Oct 2021) and CSPI list of 2016 DVs, secondary)
-    "niacin": (16, "mg"),  # (c)(8)(iv) (FDA Vitamins and Minerals Chart (Oct 2021) and CSPI list of 2016 DVs, secondary), mg NE
-    "vitamin_b6": (1.7, "mg"),  # (c)(8)(iv) (CSPI list of the 2016 DVs, secondary)
-    "folate": (400, "ug"),  # (c)(8)(iv) (FDA Vitamins and Minerals Chart (Oct 2021) and CSPI list of 2016 DVs, secondary), mcg DFE
-    "vitamin_b12": (2.4, "ug"),  # (c)(8)(iv) (CSPI list of the 2016 DVs, secondary)
-    "biotin": (30, "ug"),  # (c)(8)(iv) (FDA Vitamins and Minerals Chart (Oct 2021) and CSPI list of 2016 DVs, secondary)
-    "pantothenic_acid": (5, "mg"),  # (c)(8)(iv) (FDA Vitamins and Minerals Chart (Oct 2021) and CSPI list of 2016 DVs, secondary)
-    "phosphorus": (1250, "mg"),  # (c)(8)(iv) (CSPI list of the 2016 DVs, secondary)
-    "iodine": (150, "ug"),  # (c)(8)(iv) (CSPI list of the 2016 DVs, secondary)
-    "magnesium": (420, "mg"),  # (c)(8)(iv) (CSPI list of the 2016 DVs, secondary)
-    "zinc": (11, "mg"),  # (c)(8)(iv) (CSPI list of the 2016 DVs, secondary)
-    "selenium": (55, "ug"),  # (c)(8)(iv) (CSPI list of the 2016 DVs, secondary)
-    "copper": (0.9, "mg"),  # (c)(8)(iv) (CSPI list of the 2016 DVs, secondary)
-    "manganese": (2.3, "mg"),  # (c)(8)(iv) (CSPI list of the 2016 DVs, secondary)
-    "chromium": (35, "ug"),  # (c)(8)(iv) (CSPI list of the 2016 DVs, secondary)
-    "molybdenum": (45, "ug"),  # (c)(8)(iv) (CSPI list of the 2016 DVs, secondary)
-    "chloride": (2300, "mg"),  # (c)(8)(iv) (CSPI list of the 2016 DVs, secondary)
-    "choline": (550, "mg"),  # (c)(8)(iv) (FDA Vitamins and Minerals Chart (Oct 2021) and CSPI list of 2016 DVs, secondary)
+    "vitamin_c": (90, "mg"),  # (c)(8)(iv) (CSPI list of 2016 DVs; secondary)
+    "thiamin": (1.2, "mg"),  # (c)(8)(iv) (CSPI list of 2016 DVs; secondary)
+    "riboflavin": (1.3, "mg"),  # (c)(8)(iv) (FDA chart 2021, CSPI list; secondary)
+    "niacin": (16, "mg"),  # (c)(8)(iv) (FDA chart 2021, CSPI list; secondary), mg NE
+    "vitamin_b6": (1.7, "mg"),  # (c)(8)(iv) (CSPI list of 2016 DVs; secondary)
+    "folate": (400, "ug"),  # (c)(8)(iv) (FDA chart 2021, CSPI list; secondary), mcg DFE
+    "vitamin_b12": (2.4, "ug"),  # (c)(8)(iv) (CSPI list of 2016 DVs; secondary)
+    "biotin": (30, "ug"),  # (c)(8)(iv) (FDA chart 2021, CSPI list; secondary)
+    "pantothenic_acid": (5, "mg"),  # (c)(8)(iv) (FDA chart 2021, CSPI list; secondary)
+    "phosphorus": (1250, "mg"),  # (c)(8)(iv) (CSPI list of 2016 DVs; secondary)
+    "iodine": (150, "ug"),  # (c)(8)(iv) (CSPI list of 2016 DVs; secondary)
+    "magnesium": (420, "mg"),  # (c)(8)(iv) (CSPI list of 2016 DVs; secondary)
+    "zinc": (11, "mg"),  # (c)(8)(iv) (CSPI list of 2016 DVs; secondary)
+    "selenium": (55, "ug"),  # (c)(8)(iv) (CSPI list of 2016 DVs; secondary)
+    "copper": (0.9, "mg"),  # (c)(8)(iv) (CSPI list of 2016 DVs; secondary)
+    "manganese": (2.3, "mg"),  # (c)(8)(iv) (CSPI list of 2016 DVs; secondary)
+    "chromium": (35, "ug"),  # (c)(8)(iv) (CSPI list of 2016 DVs; secondary)
+    "molybdenum": (45, "ug"),  # (c)(8)(iv) (CSPI list of 2016 DVs; secondary)
+    "chloride": (2300, "mg"),  # (c)(8)(iv) (CSPI list of 2016 DVs; secondary)
+    "choline": (550, "mg"),  # (c)(8)(iv) (FDA chart 2021, CSPI list; secondary)
 }
 
 
