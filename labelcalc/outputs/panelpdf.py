@@ -580,7 +580,7 @@ def build_story(
     if calculation:
         story.append(
             _table(
-                [["check", "result", "detail"]] + [[c.name, "ok" if c.ok else "FAILED", c.detail] for c in checks],
+                [["check", "result", "detail"]] + [[c.name, c.result, c.detail] for c in checks],
                 st,
                 [55 * mm, 14 * mm, 105 * mm],
             )
@@ -592,6 +592,7 @@ def build_story(
                 _esc(
                     f"{len(checks) - len(bad)} of {len(checks)} checks passed"
                     + ("; FAILED: " + "; ".join(f"{c.name}: {c.detail}" for c in bad) if bad else "")
+                    + "".join(f"; REVIEW: {c.name}" for c in checks if c.ok and c.review)
                     + " (details in the calculation sheet CSV)"
                 ),
                 st["warn"] if bad else st["small"],

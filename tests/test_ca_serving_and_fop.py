@@ -1,0 +1,183 @@
+"""Canada: the stated serving against the reference amount rules (FDR B.01.002A) and the front-of-package
+thresholds for foods intended solely for children aged 1 to under 4 (FDR B.01.350 and its table).
+
+Every check names its source beside it.  The formulas are invented test data (round numbers), not foods.
+The reference amounts of the pack are still marked "from memory — verify" (the Table of Reference Amounts
+could not be read), so the tests take them from the pack and check the rules around them, not the figures.
+"""
+
+from __future__ import annotations
+
+import json
+
+import pytest
+from claimkit import Lab, one
+from typer.testing import CliRunner
+
+from labelcalc.cli import app
+from labelcalc.labelling.checks import STATED_SERVING, stated_serving_check
+from labelcalc.labelling.front_table import fop_threshold
+from labelcalc.labelling.rulepack import load_packs
+
+PACKS = load_packs()
+CA = PACKS["ca"]
+BAR_RA = CA.servings.reference_amounts["bars_grain"].amount_g
+SNACK_RA = CA.servings.reference_amounts["snacks"].amount_g
+
+
+@pytest.fixture
+def lab(tmp_path):
+    return Lab(tmp_path, CA)
+
+
+def _bar(lab, net_g: float, serving_g: float, fid="bar"):
+    return one(
+        lab,
+        {"starch": 60, "sugars": 20, "fat": 10, "protein": 5},
+        fid=fid,
+        category="bars_grain",
+        serving=f"{serving_g:g} g",
+        extra={"net_quantity": f"{net_g:g} g"},
+    )
+
+
+def _serving_check(a):
+    rec = a.declaration.record
+    hits = [c for c in rec.checks if c.name == STATED_SERVING]
+    return hits[0] if hits else None
+
+
+# ------------------------------------------------------------------ FDR B.01.002A(1)(b)(ii)
+
+
+@pytest.mark.parametrize(
+    "net_factor, serving_is_net, result",
+    [
+        # B.01.002A(1)(b)(ii): "if the package contains less than 200% of the reference amount" the serving of
+        # stated size is the net quantity: just below 200 % a smaller stated serving fails ...
+        (1.999, False, "FAILED"),
+        # ... and the whole package as the serving passes.
+        (1.999, True, "ok"),
+        # At exactly 200 % the package is no longer below the limit: (1)(c), column 3A (not read) - review.
+        (2.0, False, "review"),
+        # At 200 % or more the whole package is one serving only if one person can reasonably eat it at a
+        # single eating occasion (B.01.002A(1)(b)(i)): a person must judge it - review.
+        (2.0, True, "review"),
+        (2.001, False, "review"),
+    ],
+)
+def test_stated_serving_against_the_200_percent_rule(lab, net_factor, serving_is_net, result):
+    net = round(BAR_RA * net_factor, 3)
+    serving = net if serving_is_net else BAR_RA / 2
+    a = lab.assess(_bar(lab, net, serving), pack=CA)
+    check = _serving_check(a)
+    assert check is not None and check.result == result, check
+    assert "B.01.002A" in check.detail
+    if result == "FAILED":
+        assert f"must be the net quantity, {net:g} g" in check.detail
+    # every output reads the record: a failure or a review is also one of the declaration's reviews
+    reviews = [r for r in a.declaration.reviews if r.startswith("Stated serving")]
+    assert (result != "ok") == bool(reviews)
+    assert stated_serving_check(a.declaration) == check  # one implementation
+
+
+def test_stated_serving_check_without_net_quantity_is_a_review(lab):
+    # B.01.002A(1)(b)(ii) needs the net quantity to tell a single-serving package; without it the check
+    # cannot judge and leaves the serving to a person (column 3A, B.01.002A(1)(c)).
+    p = one(lab, {"starch": 80}, fid="nonet", category="bars_grain", serving="30 g")
+    check = _serving_check(lab.assess(p, pack=CA))
+    assert check is not None and check.result == "review" and "no net quantity" in check.detail
+
+
+def test_markets_without_the_rule_get_no_serving_check(lab):
+    # Only a pack with servings.stated_serving_check states the rule (the other packs are unchanged).
+    assert PACKS["us"].servings.stated_serving_check is None
+    p = _bar(lab, 50, 25)
+    check = _serving_check(lab.assess(p, pack=PACKS["us"]))
+    assert check is None
+
+
+def test_failed_serving_check_is_printed_by_declare_json(lab, tmp_path):
+    # FDR B.01.002A(1)(b)(ii): the JSON output carries the failure among the declaration's reviews.
+    net = round(BAR_RA * 1.5, 3)
+    p = _bar(lab, net, BAR_RA / 2)
+    lab.library()
+    res = CliRunner().invoke(app, ["declare", str(p), "-m", "ca", "--json", "--library", str(tmp_path / "ingredients")])
+    assert res.exit_code == 0, res.output
+    (d,) = json.loads(res.output)["declarations"]
+    assert any(r.startswith("Stated serving (FAILED)") and "B.01.002A(1)(b)(ii)" in r for r in d["reviews"])
+
+
+# ------------------------------------------------------------------ FDR B.01.350, table, columns 5-7
+
+
+@pytest.mark.parametrize(
+    "ref_g, category, percent",
+    [
+        # table to B.01.350, column 7: main dish with a reference amount of 170 g or more: 30 %
+        (170, "main_dishes", 30),
+        (169.9, "main_dishes", 15),
+        # column 6: reference amount of 30 g or 30 mL or less: 10 %
+        (30, "cookies", 10),
+        # column 5: reference amount greater than 30 g: 15 %
+        (30.1, "cookies", 15),
+    ],
+)
+def test_young_children_thresholds(ref_g, category, percent):
+    (fop,) = CA.front_of_pack
+    (aud,) = fop.audiences
+    assert aud.header_flag == "solely_for_young_children"
+    assert fop_threshold(fop, ref_g, category, 0) == percent
+    # the general columns 2-4 are unchanged for the same product: 200 g for main dishes
+    assert fop_threshold(fop, 170, "main_dishes") == 15
+
+
+def test_young_children_daily_values():
+    # Table to B.01.350, columns 5-7 use Part 1, column 2 of the Table of Daily Values (B.01.001.1(2)(a)(i)).
+    (fop,) = CA.front_of_pack
+    (aud,) = fop.audiences
+    rv = CA.reference_values
+    # sodium: 1200 mg from 20 Oct 2022 (lowered from 1500 mg; proposal NOP/ADP-DVQ-2021-1, secondary summaries)
+    assert rv[aud.high_in["sodium"]].amount == 1200 and rv[aud.high_in["sodium"]].confidence == "secondary"
+    # saturated + trans and sugars: not read (from memory — verify)
+    assert rv[aud.high_in["saturated_fat"]].confidence == "from memory — verify"
+    assert rv[aud.high_in["sugars"]].confidence == "from memory — verify"
+    for k, key in aud.high_in.items():
+        assert rv[key].unit == rv[fop.high_in[k]].unit, k
+
+
+def _sodium_product(lab, fid, mg_per_basis, *, young: bool):
+    # category snacks: basis is the greater of the serving (30 g) and the reference amount (B.01.350(2))
+    basis = max(SNACK_RA, 30)
+    return one(
+        lab,
+        {"starch": 80, "sodium": mg_per_basis * 100 / basis},
+        fid=fid,
+        category="snacks",
+        extra={"solely_for_young_children": young} if young else None,
+    )
+
+
+@pytest.mark.parametrize(
+    "young, fraction, high",
+    [
+        # table to B.01.350 item 3, column 5: 15 % of the children's sodium DV (Part 1, column 2) - at it: high
+        (True, 0.15, True),
+        (True, 0.1499, False),
+        # the same amount for a general food is judged on column 3 (2300 mg): not high
+        (False, 0.15, False),
+    ],
+)
+def test_young_children_sodium_symbol(lab, young, fraction, high):
+    (fop,) = CA.front_of_pack
+    (aud,) = fop.audiences
+    dv_children = CA.reference_values[aud.high_in["sodium"]].amount
+    assert SNACK_RA > 30  # column 5, not column 6
+    a = lab.assess(_sodium_product(lab, f"na{int(young)}{fraction}", dv_children * fraction, young=young), pack=CA)
+    (v,) = a.front_of_pack
+    assert v["verdicts"]["sodium"]["high_in"] is high
+    assert v["verdicts"]["sodium"]["threshold_percent"] == 15
+    assert ("audience" in v) is young
+    if young:
+        assert v["audience"]["header_flag"] == "solely_for_young_children"
+        assert v["verdicts"]["sodium"]["percent_dv"] == pytest.approx(fraction * 100)
