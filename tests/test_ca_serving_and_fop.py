@@ -181,3 +181,13 @@ def test_young_children_sodium_symbol(lab, young, fraction, high):
     if young:
         assert v["audience"]["header_flag"] == "solely_for_young_children"
         assert v["verdicts"]["sodium"]["percent_dv"] == pytest.approx(fraction * 100)
+
+
+def test_young_children_panel_is_flagged_for_review(lab):
+    # FDR B.01.001.1(2)(a)(i) and (b)(ii): the %DV of a food intended solely for children aged 1 to under 4 use
+    # Part 1, column 2 and Part 2, column 3 of the Table of Daily Values; the draft uses the general columns and
+    # says so.
+    young = lab.assess(_sodium_product(lab, "yc", 10, young=True), pack=CA)
+    general = lab.assess(_sodium_product(lab, "gc", 10, young=False), pack=CA)
+    assert any("B.01.001.1(2)(a)(i)" in r for r in young.declaration.reviews)
+    assert not any("B.01.001.1(2)(a)(i)" in r for r in general.declaration.reviews)

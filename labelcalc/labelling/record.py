@@ -231,6 +231,9 @@ def declaration_of(eng: E.LabelEngine, i: int) -> Declaration:
         list(dict.fromkeys(energy.reviews)),
         values,
     )
+    for flag, text in pack.panel.audience_reviews.items():
+        if getattr(f.header, flag):
+            decl.reviews.append(text.strip())
     serving_check = stated_serving_check(decl)  # the record's check, also a review every output prints
     if serving_check is not None and (not serving_check.ok or serving_check.review):
         decl.reviews.append(f"Stated serving ({serving_check.result}): {serving_check.detail}")

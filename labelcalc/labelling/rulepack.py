@@ -273,6 +273,10 @@ class Panel(Strict):
     percent_from_citation: str | None = None
     column_labels: dict[str, str] = Field(default_factory=dict)
     unit_labels: dict[str, str] = Field(default_factory=dict, description="how units are printed, e.g. {ug: mcg}")
+    audience_reviews: dict[Literal["solely_for_young_children"], str] = Field(
+        default_factory=dict,
+        description="formula header flag -> review printed with the panel (values the panel does not apply)",
+    )
     energy_factor_sets_allowed: list[str] = Field(
         default_factory=list,
         description="other factor sets the law allows; a formula may pick one (product.energy_methods)",
