@@ -191,3 +191,35 @@ def test_young_children_panel_is_flagged_for_review(lab):
     general = lab.assess(_sodium_product(lab, "gc", 10, young=False), pack=CA)
     assert any("B.01.001.1(2)(a)(i)" in r for r in young.declaration.reviews)
     assert not any("B.01.001.1(2)(a)(i)" in r for r in general.declaration.reviews)
+
+
+# ------------------------------------------------------------------ French wording read in the French consolidation
+
+
+def test_french_percent_daily_value_footnote():
+    # Règlement sur les aliments et drogues, tableau de l'article B.01.401, article 16, colonne 2 (French
+    # consolidation to DORS/2026-113): « *5 % ou moins c’est peu, 15 % ou plus c’est beaucoup ».
+    (fn,) = [f for f in CA.panel.footnotes if f.text.startswith("*5%")]
+    assert fn.text_second == "*5 % ou moins c’est peu, 15 % ou plus c’est beaucoup"
+
+
+def test_french_allergen_and_list_titles():
+    # B.01.010.3(1)(a)(i)(B): "Contient"; B.01.008.2(1)(a)(ii): "Ingrédients :" (English consolidation);
+    # B.01.010.1(1) and (6)-(7) in the French consolidation: arachides, sésame, blé, lait, soja, moutarde, orge,
+    # avoine, seigle; B.01.010.2(6)(b): sulfites.
+    assert CA.allergens.summary_prefix_second == "Contient :"
+    assert CA.ingredient_list.heading_second == "Ingrédients :"
+    names = {k: e.name_second for k, e in CA.allergens.entries.items() if e.name_second}
+    assert names == {
+        "peanuts": "Arachides",
+        "sesame": "Sésame",
+        "wheat": "Blé",
+        "eggs": "Œufs",
+        "milk": "Lait",
+        "soy": "Soja",
+        "mustard": "Moutarde",
+        "barley": "Orge",
+        "oats": "Avoine",
+        "rye": "Seigle",
+        "sulphites": "Sulfites",
+    }
