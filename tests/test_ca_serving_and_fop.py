@@ -223,3 +223,12 @@ def test_french_allergen_and_list_titles():
         "rye": "Seigle",
         "sulphites": "Sulfites",
     }
+
+
+def test_assess_text_names_the_audience(lab, tmp_path):
+    # Table to B.01.350, columns 5-7: the printed verdict says which values it used.
+    p = _sodium_product(lab, "txt", 10, young=True)
+    lab.library()
+    res = CliRunner().invoke(app, ["assess", str(p), "-m", "ca", "--library", str(tmp_path / "ingredients")])
+    assert res.exit_code == 0, res.output
+    assert "[values for: prepackaged product intended solely for children aged 1 to under 4]" in res.output

@@ -564,6 +564,10 @@ def build_story(
                 story.append(Paragraph(_esc("Caution: " + s.caution), st["small"]))
     for fop in a.front_of_pack:
         story.append(Paragraph(_esc(f"Front of pack (draft) — {fop['name']}"), st["h2"]))
+        if fop.get("audience"):
+            story.append(
+                Paragraph(_esc(f"Values for: {fop['audience']['name']} [{fop['audience']['citation']}]"), st["small"])
+            )
         story.append(_fop_table(fop, st, {r.nutrient: plain_label(r.label) for r in d.pack.rows}))
     elig = [c for c in a.claims if c.verdict == ELIGIBLE]
     story.append(Paragraph("Claims eligible — for review, not part of the panel", st["h2"]))
