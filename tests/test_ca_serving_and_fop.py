@@ -232,3 +232,30 @@ def test_assess_text_names_the_audience(lab, tmp_path):
     res = CliRunner().invoke(app, ["assess", str(p), "-m", "ca", "--library", str(tmp_path / "ingredients")])
     assert res.exit_code == 0, res.output
     assert "[values for: prepackaged product intended solely for children aged 1 to under 4]" in res.output
+
+
+# ------------------------------------------------------------------ reference amounts (not read)
+
+# Table of Reference Amounts for Food (Health Canada, 24 Nov 2022; 14 Dec 2016 version usable to 31 Dec 2025):
+# the Table itself could not be read, so every figure is from memory — verify and keeps that mark.
+REFERENCE_AMOUNTS_FROM_MEMORY = {
+    "snacks": 50,  # chips, pretzels, popcorn, extruded snacks (from memory — verify)
+    "crackers_snack": 20,  # crackers, crispbreads (from memory — verify)
+    "cookies": 30,  # cookies, sweet biscuits (from memory — verify)
+    "confectionery_soft": 40,  # candies other than hard candies (from memory — verify)
+    "bars_grain": 30,  # granola and grain-based bars (from memory — verify)
+    "cereals_rte_medium": 30,  # ready-to-eat breakfast cereals, 20 g to < 43 g per 250 mL (from memory — verify)
+    "hard_candies": 15,  # hard candies, breath mints, lollipops (from memory — verify)
+    "chewing_gum": 3,  # chewing gum (from memory — verify)
+    "nuts_seeds": 30,  # nuts and seeds (from memory — verify)
+    "beverages_carbonated": 355,  # soft drinks, 355 mL (from memory — verify)
+}
+
+
+def test_reference_amounts_keep_their_mark_until_read():
+    ras = CA.servings.reference_amounts
+    assert {k: v.amount_g for k, v in ras.items()} == REFERENCE_AMOUNTS_FROM_MEMORY
+    for k, v in ras.items():
+        assert v.confidence == "from memory — verify" and "from memory" in v.citation, k
+        # table to B.01.350 (read): columns 3 and 6 hold for a reference amount of 30 g or 30 mL or less
+        assert v.small == (v.amount_g <= 30), k
