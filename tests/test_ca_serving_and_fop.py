@@ -259,3 +259,21 @@ def test_reference_amounts_keep_their_mark_until_read():
         assert v.confidence == "from memory — verify" and "from memory" in v.citation, k
         # table to B.01.350 (read): columns 3 and 6 hold for a reference amount of 30 g or 30 mL or less
         assert v.small == (v.amount_g <= 30), k
+
+
+@pytest.mark.parametrize("serving, result", [("250 ml", "ok"), ("250 g", "FAILED")])
+def test_single_serving_is_stated_in_the_net_quantitys_unit(lab, serving, result):
+    # FDR B.01.002A(2)(a): a single-serving package's serving is stated per package "in grams, if the net quantity
+    # of the food is shown on the label by weight or by count" and "in millilitres, if ... by volume".
+    p = one(
+        lab,
+        {"sugars": 10},
+        fid=f"drink{result}",
+        category="beverages_carbonated",
+        serving=serving,
+        extra={"net_quantity": "250 ml", "form": "liquid", "density_g_per_ml": 1.0},
+    )
+    check = _serving_check(lab.assess(p, pack=CA))
+    assert check is not None and check.result == result, check
+    if result == "FAILED":
+        assert "B.01.002A(2)(a)" in check.detail and "millilitres" in check.detail

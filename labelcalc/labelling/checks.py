@@ -17,6 +17,7 @@ import numpy as np
 
 from labelcalc.formulation.composition import COL
 from labelcalc.formulation.energy import energy_inputs, energy_vectors
+from labelcalc.intake.quantities import parse_quantity
 from labelcalc.labelling.model import Assessment, Declaration
 
 
@@ -34,6 +35,23 @@ class Check:
 
 
 STATED_SERVING = "stated serving and reference amount"
+
+
+def _unit_kind_problem(f, rule) -> str | None:
+    """Words of the failure when a one-serving package's serving is not stated in the net quantity's kind of unit
+    (mass or volume), where the pack asks for it (``single_serving_same_unit``); None otherwise."""
+    if not rule.single_serving_same_unit or not f.header.serving or not f.header.net_quantity:
+        return None
+    kinds = ("mass", "volume")
+    serving = parse_quantity(f.header.serving.size, allowed=kinds)
+    net = parse_quantity(f.header.net_quantity, allowed=kinds)
+    if serving.kind == net.kind:
+        return None
+    want = "grams" if net.kind == "mass" else "millilitres"
+    return (
+        f"the net quantity is shown by {'weight' if net.kind == 'mass' else 'volume'} ({net.text}), so the serving "
+        f"is stated in {want}, not as '{serving.text}'. {rule.single_serving_same_unit.strip()}"
+    )
 
 
 def stated_serving_check(decl: Declaration) -> Check | None:
@@ -63,7 +81,10 @@ def stated_serving_check(decl: Declaration) -> Check | None:
     pct = net / ra_g * 100
     limit = pack.servings.single_serving_below_percent
     whole = abs(stated - net) <= 1e-9
+    unit_problem = _unit_kind_problem(f, rule) if (whole or (limit is not None and pct < limit)) else None
     if limit is not None and pct < limit:
+        if whole and unit_problem:
+            return Check(STATED_SERVING, False, f"single-serving package: {unit_problem}{cite}")
         if whole:
             return Check(
                 STATED_SERVING,
@@ -77,6 +98,8 @@ def stated_serving_check(decl: Declaration) -> Check | None:
             f"the package holds {net:g} g, {pct:.0f} % of {ra_text}, below {limit:g} %: the serving of stated size "
             f"must be the net quantity, {net:g} g, not the stated {stated:g} g. {rule.single_serving.strip()}{cite}",
         )
+    if whole and unit_problem:
+        return Check(STATED_SERVING, False, f"the stated serving is the whole package: {unit_problem}{cite}")
     if whole:
         return Check(
             STATED_SERVING,

@@ -71,6 +71,11 @@ class StatedServingCheck(Cited):
     net quantity; at or above it the serving follows ``multi_serving`` (words of the rule, shown for review)."""
 
     single_serving: str = Field(description="why a package below the limit is one serving (words, with citation)")
+    single_serving_same_unit: str | None = Field(
+        None,
+        description="set when a one-serving package states its serving in the net quantity's kind of unit (mass: g, "
+        "volume: mL); the words, with citation",
+    )
     whole_package_above_limit: str | None = Field(
         None, description="when a package at or above the limit may still be one serving (review words)"
     )
