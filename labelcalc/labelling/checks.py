@@ -17,8 +17,10 @@ import numpy as np
 
 from labelcalc.formulation.composition import COL
 from labelcalc.formulation.energy import energy_inputs, energy_vectors
+from labelcalc.intake.formula import Formula
 from labelcalc.intake.quantities import parse_quantity
 from labelcalc.labelling.model import Assessment, Declaration
+from labelcalc.labelling.rulepack import StatedServingCheck
 
 
 @dataclass
@@ -37,7 +39,7 @@ class Check:
 STATED_SERVING = "stated serving and reference amount"
 
 
-def _unit_kind_problem(f, rule) -> str | None:
+def _unit_kind_problem(f: Formula, rule: StatedServingCheck) -> str | None:
     """Words of the failure when a one-serving package's serving is not stated in the net quantity's kind of unit
     (mass or volume), where the pack asks for it (``single_serving_same_unit``); None otherwise."""
     if not rule.single_serving_same_unit or not f.header.serving or not f.header.net_quantity:
