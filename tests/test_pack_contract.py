@@ -111,3 +111,28 @@ def test_claims_are_cited_and_testable(pack):
     for cl in pack.claims:
         assert cl.citation.strip() and cl.confidence in CONF, cl.id
         assert cl.conditions or cl.alternatives or cl.fails_with_ingredient_kinds, cl.id
+
+
+def test_stated_serving_check_is_cited_and_usable(pack):
+    """A pack that checks the stated serving gives the words of each case and the limit it judges by."""
+    rule = pack.servings.stated_serving_check
+    if rule is None:
+        return
+    assert rule.citation.strip() and rule.confidence in CONF
+    assert rule.single_serving.strip() and rule.multi_serving.strip()
+    assert pack.servings.single_serving_below_percent and pack.servings.reference_amounts
+
+
+def test_front_of_pack_audiences_are_complete(pack):
+    """Each audience of a 'high in' scheme is cited, names a formula header flag, gives a reference value in the
+    scheme's own unit for every nutrient of the scheme, and has a threshold that applies to every product."""
+    from labelcalc.intake.formula import Header
+
+    for fop in pack.front_of_pack:
+        for aud in fop.audiences:
+            assert aud.citation.strip() and aud.confidence in CONF, fop.id
+            assert aud.header_flag in Header.model_fields, aud.header_flag
+            assert set(aud.high_in) == set(fop.high_in or {}), fop.id
+            for k, key in aud.high_in.items():
+                assert pack.reference_values[key].unit == pack.reference_values[(fop.high_in or {})[k]].unit, key
+            assert any(set(t) == {"percent"} for t in aud.thresholds), fop.id

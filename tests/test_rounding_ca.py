@@ -295,6 +295,13 @@ DAILY_VALUES = {
     "molybdenum": (45, "ug"),  # Part 2, column 4 (from memory — verify)
     "chloride": (2300, "mg"),  # Part 2, column 4 (from memory — verify)
     "choline": (550, "mg"),  # Part 2, column 4 (from memory — verify)
+    # Part 1, column 2 (foods intended solely for children aged 1 to under 4; B.01.001.1(2)(a)(i)), read by
+    # the front-of-package thresholds of the table to B.01.350, columns 5-7.  Sodium 1200 mg (version of
+    # 20 Oct 2022, lowered from 1500 mg: summaries of proposal NOP/ADP-DVQ-2021-1, secondary); the other two
+    # from memory — verify.
+    "saturated_plus_trans_children_1_3": (10, "g"),
+    "sugars_children_1_3": (50, "g"),
+    "sodium_children_1_3": (1200, "mg"),
 }
 
 

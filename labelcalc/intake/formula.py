@@ -70,6 +70,11 @@ class Header(Strict):
     packed_in_protective_atmosphere: bool = Field(
         False, description="packaging gases extend the food's durability (a statement in some markets)"
     )
+    solely_for_young_children: bool = Field(
+        False,
+        description="the food is intended solely for children aged one year or older but less than four "
+        "(markets with other values for such foods use them, e.g. Canada's front-of-package thresholds)",
+    )
     energy_methods: dict[str, str] | None = Field(
         None,
         description="market -> energy factor set id, where the market allows a choice (e.g. {us: us_101_9_method_b})",

@@ -4,7 +4,9 @@
   macronutrients, within what rounding allows;
 * no sub-row exceeds its parent (sugars within carbohydrate, saturates within fat);
 * printed kJ and kcal each agree with the market's factors;
-* the panel carries the formula's content hash.
+* the panel carries the formula's content hash;
+* the formula's stated serving follows the market's reference amount rules, where the pack states them
+  (``servings.stated_serving_check``): a failure where the rule can be judged, a review where it needs a person.
 """
 
 from __future__ import annotations
@@ -15,7 +17,10 @@ import numpy as np
 
 from labelcalc.formulation.composition import COL
 from labelcalc.formulation.energy import energy_inputs, energy_vectors
+from labelcalc.intake.formula import Formula
+from labelcalc.intake.quantities import parse_quantity
 from labelcalc.labelling.model import Assessment, Declaration
+from labelcalc.labelling.rulepack import StatedServingCheck
 
 
 @dataclass
@@ -23,6 +28,95 @@ class Check:
     name: str
     ok: bool
     detail: str
+    review: bool = False  # passed as far as a program can tell; a person must still judge it (detail says what)
+
+    @property
+    def result(self) -> str:
+        """The check's result in words: "ok", "review" or "FAILED"."""
+        return "FAILED" if not self.ok else "review" if self.review else "ok"
+
+
+STATED_SERVING = "stated serving and reference amount"
+
+
+def _unit_kind_problem(f: Formula, rule: StatedServingCheck) -> str | None:
+    """Words of the failure when a one-serving package's serving is not stated in the net quantity's kind of unit
+    (mass or volume), where the pack asks for it (``single_serving_same_unit``); None otherwise."""
+    if not rule.single_serving_same_unit or not f.header.serving or not f.header.net_quantity:
+        return None
+    kinds = ("mass", "volume")
+    serving = parse_quantity(f.header.serving.size, allowed=kinds)
+    net = parse_quantity(f.header.net_quantity, allowed=kinds)
+    if serving.kind == net.kind:
+        return None
+    want = "grams" if net.kind == "mass" else "millilitres"
+    return (
+        f"the net quantity is shown by {'weight' if net.kind == 'mass' else 'volume'} ({net.text}), so the serving "
+        f"is stated in {want}, not as '{serving.text}'. {rule.single_serving_same_unit.strip()}"
+    )
+
+
+def stated_serving_check(decl: Declaration) -> Check | None:
+    """The formula's stated serving against the market's reference amount rules (None where the pack states no
+    such rule or the product has no reference amount or stated serving).
+
+    Below ``single_serving_below_percent`` of the reference amount the serving of stated size is the net quantity
+    (a stated serving that differs fails); a package at or above it that is stated as one serving, or a
+    multiple-serving package, is passed for review with the pack's words of the rule that then applies."""
+    pack = decl.pack
+    rule = pack.servings.stated_serving_check
+    f = decl.composition.formula
+    stated = f.serving_grams()
+    if rule is None or decl.reference_amount is None or stated is None:
+        return None
+    category, ra_g, _ = decl.reference_amount
+    net = f.net_grams()
+    ra_text = f"the reference amount ({ra_g:g} g, category '{category}')"
+    cite = f" [{rule.citation.strip()}]"
+    if net is None:
+        return Check(
+            STATED_SERVING,
+            True,
+            f"no net quantity, so the package cannot be judged against {ra_text}: {rule.multi_serving.strip()}{cite}",
+            review=True,
+        )
+    pct = net / ra_g * 100
+    limit = pack.servings.single_serving_below_percent
+    whole = abs(stated - net) <= 1e-9
+    unit_problem = _unit_kind_problem(f, rule) if (whole or (limit is not None and pct < limit)) else None
+    if limit is not None and pct < limit:
+        if whole and unit_problem:
+            return Check(STATED_SERVING, False, f"single-serving package: {unit_problem}{cite}")
+        if whole:
+            return Check(
+                STATED_SERVING,
+                True,
+                f"single-serving package: {net:g} g is {pct:.0f} % of {ra_text}, below {limit:g} %, and the stated "
+                f"serving is the net quantity{cite}",
+            )
+        return Check(
+            STATED_SERVING,
+            False,
+            f"the package holds {net:g} g, {pct:.0f} % of {ra_text}, below {limit:g} %: the serving of stated size "
+            f"must be the net quantity, {net:g} g, not the stated {stated:g} g. {rule.single_serving.strip()}{cite}",
+        )
+    if whole and unit_problem:
+        return Check(STATED_SERVING, False, f"the stated serving is the whole package: {unit_problem}{cite}")
+    if whole:
+        return Check(
+            STATED_SERVING,
+            True,
+            f"the stated serving is the whole package ({net:g} g, {pct:.0f} % of {ra_text}): "
+            f"{(rule.whole_package_above_limit or rule.multi_serving).strip()}{cite}",
+            review=True,
+        )
+    return Check(
+        STATED_SERVING,
+        True,
+        f"multiple-serving package ({net:g} g, {pct:.0f} % of {ra_text}); the stated serving of {stated:g} g "
+        f"({stated / ra_g * 100:.0f} % of the reference amount) must follow: {rule.multi_serving.strip()}{cite}",
+        review=True,
+    )
 
 
 def _half_step(decl: Declaration, nutrient: str, basis: str) -> float:
@@ -145,4 +239,7 @@ def run_checks(a: Assessment) -> list[Check]:
         checks += _subrow_checks(d, basis)
     h = d.composition.formula.content_hash
     checks.append(Check("formula content hash", bool(h), f"panel drawn from formula hash {h}"))
+    serving = stated_serving_check(d)
+    if serving is not None:
+        checks.append(serving)
     return checks

@@ -64,15 +64,23 @@ class FrontOfPackTables(EngineTables):
                     }
             else:
                 basis_g = np.fmax(self.ref_g, self.serving)  # NaN only where both are missing
-                threshold = np.array(
+                # the audience of each product: index into fop.audiences, -1 for the scheme's own values
+                aud = np.array(
                     [
-                        np.nan if (t := fop_threshold(fop, None if np.isnan(r) else float(r), c)) is None else t
-                        for r, c in zip(self.ref_g, cat)
+                        next((j for j, a in enumerate(fop.audiences) if getattr(f.header, a.header_flag)), -1)
+                        for f in self.products
                     ]
                 )
-                entry["basis_g"], entry["threshold"] = basis_g, threshold
+                threshold = np.array(
+                    [
+                        np.nan if (t := fop_threshold(fop, None if np.isnan(r) else float(r), c, int(a))) is None else t
+                        for r, c, a in zip(self.ref_g, cat, aud)
+                    ]
+                )
+                entry["basis_g"], entry["threshold"], entry["audience"] = basis_g, threshold, aud
                 for k, ref_key in (fop.high_in or {}).items():
-                    ref = self.pack.reference_values[ref_key].amount
+                    keys = [ref_key, *(a.high_in[k] for a in fop.audiences)]
+                    ref = np.array([self.pack.reference_values[keys[int(a) + 1]].amount for a in aud], dtype=float)
                     pct = self.val[k] * basis_g / 100 / ref * 100
                     high = np.array(
                         [
@@ -122,9 +130,10 @@ def portion_rule_applies(fop, serving_g: float, drink: bool, density: float) -> 
     return bool(fop.portion_rule_above_g and q_scalar(serving_g) > q_scalar(fop.portion_rule_above_g))
 
 
-def fop_threshold(fop, ref_g: float | None, category: str | None) -> float | None:
-    """The %DV threshold of a 'high in' scheme for a product: small reference amounts, main dishes, or general."""
-    for t in fop.thresholds or []:
+def fop_threshold(fop, ref_g: float | None, category: str | None, audience: int = -1) -> float | None:
+    """The %DV threshold of a 'high in' scheme for a product: small reference amounts, main dishes, or general;
+    ``audience`` indexes the scheme's audiences (-1: the scheme's own thresholds)."""
+    for t in (fop.thresholds or []) if audience < 0 else fop.audiences[audience].thresholds:
         if "reference_amount_up_to" in t and ref_g is not None and ref_g <= t["reference_amount_up_to"]:
             return t["percent"]
         if (

@@ -21,7 +21,7 @@ from labelcalc.formulation.energy import ENERGY_GROUPS, EnergyResult
 from labelcalc.labelling import claims_table as CT
 from labelcalc.labelling import engine as E
 from labelcalc.labelling import statement_table as ST
-from labelcalc.labelling.checks import Check, run_checks
+from labelcalc.labelling.checks import Check, run_checks, stated_serving_check
 from labelcalc.labelling.ingredients import ingredient_list
 from labelcalc.labelling.model import (
     CANNOT_TELL,
@@ -213,7 +213,7 @@ def declaration_of(eng: E.LabelEngine, i: int) -> Declaration:
             f"Declared energy ({energy.kcal:.0f} kcal/100 g under {energy.factor_set.id}) differs from available "
             f"energy ({available.kcal:.0f} kcal/100 g): see the review notes."
         )
-    return Declaration(
+    decl = Declaration(
         pack.market,
         pack,
         comp,
@@ -231,6 +231,13 @@ def declaration_of(eng: E.LabelEngine, i: int) -> Declaration:
         list(dict.fromkeys(energy.reviews)),
         values,
     )
+    for flag, text in pack.panel.audience_reviews.items():
+        if getattr(f.header, flag):
+            decl.reviews.append(text.strip())
+    serving_check = stated_serving_check(decl)  # the record's check, also a review every output prints
+    if serving_check is not None and (not serving_check.ok or serving_check.review):
+        decl.reviews.append(f"Stated serving ({serving_check.result}): {serving_check.detail}")
+    return decl
 
 
 # ------------------------------------------------------------------ claims
@@ -588,6 +595,7 @@ def front_of_pack(eng: E.LabelEngine, i: int) -> list[dict]:
             )
             continue
         threshold = _f(entry["threshold"][i])
+        audience = fop.audiences[int(entry["audience"][i])] if entry["audience"][i] >= 0 else None
         for k, a in entry["nutrients"].items():
             if a["unknown"][i]:
                 verdicts[k] = {"high_in": "cannot tell"}
@@ -598,17 +606,24 @@ def front_of_pack(eng: E.LabelEngine, i: int) -> list[dict]:
                 "threshold_percent": threshold,
                 "basis_g": float(basis_g),
             }
-        out.append(
-            {
-                "scheme": fop.id,
-                "name": fop.name,
-                "exempt": False,
-                "verdicts": verdicts,
-                "symbol_required": any(x.get("high_in") is True for x in verdicts.values()),
-                "citation": fop.citation,
-                "confidence": fop.confidence,
+        item = {
+            "scheme": fop.id,
+            "name": fop.name,
+            "exempt": False,
+            "verdicts": verdicts,
+            "symbol_required": any(x.get("high_in") is True for x in verdicts.values()),
+            "citation": fop.citation,
+            "confidence": fop.confidence,
+        }
+        if audience is not None:  # the values for the audience the formula header names
+            item["audience"] = {
+                "header_flag": audience.header_flag,
+                "name": audience.name,
+                "reference_values": dict(audience.high_in),
+                "citation": audience.citation,
+                "confidence": audience.confidence,
             }
-        )
+        out.append(item)
     return out
 
 

@@ -65,6 +65,23 @@ class DualColumn(Cited):
     to_percent: Number = Field(gt=0, description="... and at or below this % gets a second, per-container column")
 
 
+class StatedServingCheck(Cited):
+    """How a formula's stated serving is checked against the market's reference amount rules (the label
+    record's checks): below ``single_serving_below_percent`` of the reference amount the serving must be the
+    net quantity; at or above it the serving follows ``multi_serving`` (words of the rule, shown for review)."""
+
+    single_serving: str = Field(description="why a package below the limit is one serving (words, with citation)")
+    single_serving_same_unit: str | None = Field(
+        None,
+        description="set when a one-serving package states its serving in the net quantity's kind of unit (mass: g, "
+        "volume: mL); the words, with citation",
+    )
+    whole_package_above_limit: str | None = Field(
+        None, description="when a package at or above the limit may still be one serving (review words)"
+    )
+    multi_serving: str = Field(description="what a multiple-serving package's serving must follow (review words)")
+
+
 class Servings(Strict):
     required: bool = Field(description="the market's panel needs a serving size")
     reference_amounts: dict[str, ReferenceAmount] = Field(default_factory=dict)
@@ -73,6 +90,9 @@ class Servings(Strict):
         None, description="container below this % of the reference amount is one serving"
     )
     single_serving: Cited | None = None
+    stated_serving_check: StatedServingCheck | None = Field(
+        None, description="check the formula's stated serving against the reference amount rules"
+    )
     dual_column: DualColumn | None = None
     servings_rounding: str | None = Field(None, description="rounding rule key for servings per container")
     about_prefix: str | None = Field(None, description="word printed before a rounded number of servings, e.g. 'about'")
@@ -258,6 +278,10 @@ class Panel(Strict):
     percent_from_citation: str | None = None
     column_labels: dict[str, str] = Field(default_factory=dict)
     unit_labels: dict[str, str] = Field(default_factory=dict, description="how units are printed, e.g. {ug: mcg}")
+    audience_reviews: dict[Literal["solely_for_young_children"], str] = Field(
+        default_factory=dict,
+        description="formula header flag -> review printed with the panel (values the panel does not apply)",
+    )
     energy_factor_sets_allowed: list[str] = Field(
         default_factory=list,
         description="other factor sets the law allows; a formula may pick one (product.energy_methods)",
@@ -333,6 +357,16 @@ class RulePack(Strict):
             for k in (fop.high_in or {}).values():
                 if k not in self.reference_values:
                     errs.append(f"front_of_pack {fop.id} uses reference value '{k}', which is not defined")
+            if fop.audiences and fop.kind != "high_in_symbol":
+                errs.append(f"front_of_pack {fop.id}: audiences are for high_in_symbol schemes")
+            for aud in fop.audiences:
+                if set(aud.high_in) != set(fop.high_in or {}):
+                    errs.append(
+                        f"front_of_pack {fop.id} audience {aud.header_flag}: high_in must name the same nutrients"
+                    )
+                for k in aud.high_in.values():
+                    if k not in self.reference_values:
+                        errs.append(f"front_of_pack {fop.id} uses reference value '{k}', which is not defined")
         s = self.servings
         if s.servings_rounding and s.servings_rounding not in self.rounding:
             errs.append(f"servings.servings_rounding '{s.servings_rounding}' is not defined under 'rounding'")
@@ -357,7 +391,7 @@ class RulePack(Strict):
         out = set(self.servings.reference_amounts or {})
         for fop in self.front_of_pack:
             out |= set(fop.exempt_kinds)
-            for t in fop.thresholds or []:
+            for t in [*(fop.thresholds or []), *(t for a in fop.audiences for t in a.thresholds)]:
                 out |= {str(c) for c in t.get("categories", [])}
         return out
 

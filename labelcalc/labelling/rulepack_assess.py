@@ -249,6 +249,18 @@ class FopBand(Strict):
     unit: str
 
 
+class FopAudience(Strict):
+    """Other reference values and thresholds of a 'high in' scheme for foods a formula header flag names
+    (e.g. foods intended solely for young children)."""
+
+    header_flag: Literal["solely_for_young_children"]
+    name: str = Field(description="who the food is for, in words")
+    high_in: dict[str, str] = Field(description="nutrient -> reference value key for this audience")
+    thresholds: list[dict] = Field(min_length=1, description="as the scheme's thresholds")
+    citation: str = Field(min_length=3)
+    confidence: Confidence
+
+
 class FrontOfPack(Strict):
     id: str
     name: str
@@ -266,6 +278,9 @@ class FrontOfPack(Strict):
         None, description="[{reference_amount_up_to: 30, percent: 10}, {main_dish: true, percent: 30}, {percent: 15}]"
     )
     exempt_kinds: list[str] = Field(default_factory=list)
+    audiences: list[FopAudience] = Field(
+        default_factory=list, description="high_in_symbol: other values for foods a header flag names"
+    )
     citation: str = Field(min_length=3)
     confidence: Confidence
 

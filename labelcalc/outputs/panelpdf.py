@@ -564,6 +564,10 @@ def build_story(
                 story.append(Paragraph(_esc("Caution: " + s.caution), st["small"]))
     for fop in a.front_of_pack:
         story.append(Paragraph(_esc(f"Front of pack (draft) — {fop['name']}"), st["h2"]))
+        if fop.get("audience"):
+            story.append(
+                Paragraph(_esc(f"Values for: {fop['audience']['name']} [{fop['audience']['citation']}]"), st["small"])
+            )
         story.append(_fop_table(fop, st, {r.nutrient: plain_label(r.label) for r in d.pack.rows}))
     elig = [c for c in a.claims if c.verdict == ELIGIBLE]
     story.append(Paragraph("Claims eligible — for review, not part of the panel", st["h2"]))
@@ -580,7 +584,7 @@ def build_story(
     if calculation:
         story.append(
             _table(
-                [["check", "result", "detail"]] + [[c.name, "ok" if c.ok else "FAILED", c.detail] for c in checks],
+                [["check", "result", "detail"]] + [[c.name, c.result, c.detail] for c in checks],
                 st,
                 [55 * mm, 14 * mm, 105 * mm],
             )
@@ -592,6 +596,7 @@ def build_story(
                 _esc(
                     f"{len(checks) - len(bad)} of {len(checks)} checks passed"
                     + ("; FAILED: " + "; ".join(f"{c.name}: {c.detail}" for c in bad) if bad else "")
+                    + "".join(f"; REVIEW: {c.name}" for c in checks if c.ok and c.review)
                     + " (details in the calculation sheet CSV)"
                 ),
                 st["warn"] if bad else st["small"],

@@ -271,7 +271,8 @@ def assess_text(items) -> str:
                             else ""
                         )
                     )
-            out.append(f"Front of pack — {fop['name']}: " + ", ".join(parts))
+            aud = f" [values for: {fop['audience']['name']}]" if fop.get("audience") else ""
+            out.append(f"Front of pack — {fop['name']}{aud}: " + ", ".join(parts))
         for x in a.reviews:
             out.append(f"REVIEW: {x}")
         out.append("")
