@@ -1,4 +1,4 @@
-"""The range summary workbook (openpyxl, write-only mode).
+"""The range summary workbook (written by :mod:`labelcalc.outputs.sheetwriter`).
 
 One sheet per market, because each market declares different nutrients on a different basis under
 its own names: the columns of a sheet are that market's rows, in the pack's order, named as the
@@ -7,30 +7,21 @@ are numbers; where the printed text is not simply "number unit" ("less than 1 g"
 Added Sugars") a "... as printed" text column sits beside the number.  Header row frozen, column
 widths set.  Then the errors and, when the register was used, the changes.
 
-Identical input gives a byte-identical file: fixed document dates, and the zip entries rewritten
-with a fixed timestamp (openpyxl stamps them with the current time).
+Identical input gives a byte-identical file (fixed document and zip entry dates).
 """
 
 from __future__ import annotations
 
-import datetime as _dt
-import os
 import re
-import shutil
-import zipfile
-from collections.abc import Iterable
+from collections.abc import Callable, Iterable
 from functools import lru_cache
 from pathlib import Path
-
-from openpyxl import Workbook
-from openpyxl.cell import WriteOnlyCell
-from openpyxl.styles import Alignment, Font
 
 from labelcalc.labelling.model import BASIS_LABEL, display_unit
 from labelcalc.labelling.rounding import plain_label
 from labelcalc.labelling.rulepack import RulePack
+from labelcalc.outputs.sheetwriter import Workbook
 
-FIXED_TIME = _dt.datetime(2000, 1, 1, 0, 0, 0)
 _NUMBER_UNIT = re.compile(r"^(-?\d+(?:\.\d+)?)\s*([A-Za-zµ]+)?$")
 _PERCENT = re.compile(r"^(-?\d+(?:\.\d+)?)\s*%$")
 
@@ -166,35 +157,21 @@ def market_columns(plan: SheetPlan, pack: RulePack | None) -> list[tuple[str, st
     return cols
 
 
-def _header(ws, headers: list[str]) -> None:
-    bold = Font(bold=True)
-    cells = []
-    for h in headers:
-        c = WriteOnlyCell(ws, value=h)
-        c.font = bold
-        c.alignment = Alignment(wrap_text=True, vertical="top")
-        cells.append(c)
-    ws.append(cells)
-
-
 class _MarketSheet:
-    """A market sheet opened with its header; rows are appended one by one."""
+    """How a market's summary rows become sheet rows: the columns from the plan and the pack, the names
+    of claims and statements."""
 
-    def __init__(self, wb: Workbook, market: str, plan: SheetPlan, pack: RulePack | None):
-        self.ws = ws = wb.create_sheet(market.upper() if len(market) <= 5 else market[:31])
+    def __init__(self, plan: SheetPlan, pack: RulePack | None):
         self.cols = cols = market_columns(plan, pack)
-        widths = [w for _, _, w, _ in _LEAD] + [w for *_, w in cols] + [w for *_, w in _TAIL]
-        for j, w in enumerate(widths):
-            ws.column_dimensions[_letter(j)].width = w
-        ws.freeze_panes = "C2"
-        _header(ws, [h for _, h, _, _ in _LEAD] + [h for _, h, _, _ in cols] + [h for _, h, _ in _TAIL])
+        self.widths = [w for _, _, w, _ in _LEAD] + [w for *_, w in cols] + [w for *_, w in _TAIL]
+        self.headers = [h for _, h, _, _ in _LEAD] + [h for _, h, _, _ in cols] + [h for _, h, _ in _TAIL]
         self.templates = {r.nutrient: r.label for r in pack.rows if "{amount}" in r.label} if pack else {}
         self.names: dict[str, str] = {}
         if pack:
             self.names.update({c.id: c.label for c in pack.claims})
             self.names.update({s.id: s.text for s in pack.statements})
 
-    def append(self, r: dict) -> None:
+    def line(self, r: dict) -> list:
         line = [_round(r.get(k), d) for k, _, _, d in _LEAD]
         templates = self.templates
         for key, _, kind, _ in self.cols:
@@ -204,22 +181,18 @@ class _MarketSheet:
             else:
                 line.append(_number(v)[0])
         line += [_names(k, r.get(k), self.names) for k, _, _ in _TAIL]
-        self.ws.append(line)
+        return line
 
 
-def _letter(j: int) -> str:
-    from openpyxl.utils import get_column_letter
-
-    return get_column_letter(j + 1)
+def _sheet_name(market: str) -> str:
+    return market.upper() if len(market) <= 5 else market[:31]
 
 
 def _plain_sheet(wb: Workbook, name: str, rows: list[dict], columns: list[str] | None = None) -> None:
-    ws = wb.create_sheet(name)
     cols = columns or list(dict.fromkeys(k for r in rows for k in r)) or ["(none)"]
-    for j, c in enumerate(cols):
-        ws.column_dimensions[_letter(j)].width = 50 if c in ("message", "why", "what_moved") else 18
-    ws.freeze_panes = "A2"
-    _header(ws, [c.replace("_", " ").capitalize() for c in cols])
+    widths = [50 if c in ("message", "why", "what_moved") else 18 for c in cols]
+    ws = wb.sheet(name, widths, freeze=(0, 1), size=(len(rows) + 1, len(cols)))
+    ws.header([c.replace("_", " ").capitalize() for c in cols])
     for r in rows:
         ws.append([r.get(c) for c in cols])
 
@@ -236,47 +209,32 @@ def write_summary_workbook(
     plans: dict[str, SheetPlan] = {}
     for r in rows:
         plans.setdefault(r["market"], SheetPlan()).add(r)
-    write_summary_workbook_streamed(path, plans, rows, errors, changes, packs, error_columns)
+    write_summary_workbook_streamed(path, plans, lambda: rows, errors, changes, packs, error_columns)
 
 
 def write_summary_workbook_streamed(
     path: Path,
     plans: dict[str, SheetPlan],
-    rows: Iterable[dict],
+    rows: Callable[[], Iterable[dict]],
     errors: list[dict],
     changes: list[dict] | None,
     packs: dict[str, RulePack] | None = None,
     error_columns: list[str] | None = None,
 ) -> None:
-    """The summary workbook from rows read once, in summary order (each market's rows go to its sheet as
-    they come); ``plans`` (market -> :class:`SheetPlan` of all its rows) fixes the sheets' columns first."""
-    wb = Workbook(write_only=True)
-    wb.properties.creator = "labelcalc"
-    wb.properties.created = FIXED_TIME
-    wb.properties.modified = FIXED_TIME
-    sheets = {m: _MarketSheet(wb, m, plans[m], (packs or {}).get(m)) for m in sorted(plans) if plans[m].rows}
-    _plain_sheet(wb, "errors", errors, error_columns)
-    if changes is not None:
-        _plain_sheet(wb, "changes", changes, ["status", "product_id", "market", "scenario", "what_moved", "why"])
-    for r in rows:
-        sheets[r["market"]].append(r)
-    wb.save(path)
-    _fix_zip_dates(path)
-
-
-def _fix_zip_dates(path: Path) -> None:
-    """Rewrite the zip with a fixed timestamp on every entry and in the document properties, so identical
-    input gives identical bytes.  Entries are copied one by one in pieces (a large range's sheet is hundreds
-    of megabytes unpacked)."""
-    fixed = path.with_name(path.name + ".dates")
-    with zipfile.ZipFile(path) as src, zipfile.ZipFile(fixed, "w", compression=zipfile.ZIP_DEFLATED) as dst:
-        for entry in src.infolist():
-            info = zipfile.ZipInfo(entry.filename, date_time=(2000, 1, 1, 0, 0, 0))
-            info.compress_type = zipfile.ZIP_DEFLATED
-            if entry.filename == "docProps/core.xml":  # openpyxl stamps 'modified' with the time of saving
-                data = re.sub(rb"(<dcterms:modified[^>]*>)[^<]*", rb"\g<1>2000-01-01T00:00:00Z", src.read(entry))
-                dst.writestr(info, data)
+    """The summary workbook from rows read once per market sheet (``rows()`` gives them in summary order each
+    time it is called); ``plans`` (market -> :class:`SheetPlan` of all its rows) fixes the sheets' columns."""
+    with Workbook(path) as wb:
+        for m in sorted(plans):
+            if not plans[m].rows:
                 continue
-            with src.open(entry) as fin, dst.open(info, "w", force_zip64=entry.file_size > 2**31) as fout:
-                shutil.copyfileobj(fin, fout, 1 << 20)
-    os.replace(fixed, path)
+            sheet = _MarketSheet(plans[m], (packs or {}).get(m))
+            size = (plans[m].rows + 1, len(sheet.headers))
+            ws = wb.sheet(_sheet_name(m), sheet.widths, freeze=(2, 1), size=size)
+            ws.header(sheet.headers)
+            line = sheet.line
+            for r in rows():
+                if r["market"] == m:
+                    ws.append(line(r))
+        _plain_sheet(wb, "errors", errors, error_columns)
+        if changes is not None:
+            _plain_sheet(wb, "changes", changes, ["status", "product_id", "market", "scenario", "what_moved", "why"])

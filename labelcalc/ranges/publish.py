@@ -101,7 +101,7 @@ def _workbook(path: Path, result: RangeResult, changes: list[dict] | None, packs
         atomic_write(
             path,
             lambda tmp: write_summary_workbook_streamed(
-                tmp, plans, parts.read_rows(result.parts), result.errors, changes, packs, ERROR_COLUMNS
+                tmp, plans, lambda: parts.read_rows(result.parts), result.errors, changes, packs, ERROR_COLUMNS
             ),
         )
     else:
