@@ -39,7 +39,7 @@ NON_PRODUCTS = {
 FORMULA_KEYS = ("product", "subformula")
 
 
-@dataclass
+@dataclass(slots=True)
 class CatalogueEntry:
     """One YAML file: its kind ('product', 'subformula', a non-product kind or 'error') and id if any."""
 
@@ -168,12 +168,12 @@ class FormulaIndex:
         self.paths: dict[str, Path | str] = {}  # str in a look-up copy (see lookup_only)
         self.kinds: dict[str, str] = {}
         self.duplicates: dict[str, list[Path]] = {}
-        seen: set[Path] = set()
+        seen: set[str] = set()  # resolved paths as text: a range holds one per file
         by_id: dict[str, list[CatalogueEntry]] = {}
         files = []
         for folder in folders:
             for f in yaml_files(folder):
-                key = f.resolve()
+                key = str(f.resolve())
                 if key not in seen:
                     seen.add(key)
                     files.append(f)
@@ -182,6 +182,7 @@ class FormulaIndex:
         else:
             pairs = (_classify(f) for f in files)
         for f, (e, data) in zip(files, pairs):
+            e.path = f  # one path object per file (an entry from a worker process brings its own copy)
             self.entries.append(e)
             if keep_products and e.kind == "product" and (keep_products is True or len(self._parsed) < keep_products):
                 self._parsed[f] = data

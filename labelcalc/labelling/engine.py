@@ -136,6 +136,27 @@ class LabelEngine(StatementTables, FrontOfPackTables):
                 out.setdefault(k, []).append(i)
         return out
 
+    @cached_property
+    def products_by_substance(self) -> dict[str, list[int]]:
+        """Which products use an ingredient of each named substance (lower case)."""
+        out: dict[str, list[int]] = {}
+        for i, f in enumerate(self.products):
+            for sub in {(g.substance or "").lower() for g in f.ingredients_used() if g.substance}:
+                out.setdefault(sub, []).append(i)
+        return out
+
+    @cached_property
+    def claim_keys(self) -> dict[int, list[str]]:
+        """The claims each product's header says it makes, as keys, for the products that make any."""
+        return {i: [claim_key(x) for x in f.header.claims] for i, f in enumerate(self.products) if f.header.claims}
+
+    def _claims_where(self, test) -> np.ndarray:
+        """Products whose header makes a claim whose key passes ``test``."""
+        out = np.zeros(self.n, dtype=bool)
+        for i, keys in self.claim_keys.items():
+            out[i] = any(test(k) for k in keys)
+        return out
+
     def ingredients_of_kinds(self, kinds: list[str]) -> dict[int, list[str]]:
         """The ingredients (ids, sorted) of any of ``kinds``, for each product that uses one."""
         want = set(kinds)
@@ -285,17 +306,18 @@ class LabelEngine(StatementTables, FrontOfPackTables):
                 ok &= self.liquid if t.form == "liquid" else ~self.liquid
             if t.claim_about is not None:
                 want = "_".join(t.claim_about.lower().split())
-                ok &= np.array([any(want in claim_key(x) for x in f.header.claims) for f in self.products], dtype=bool)
+                ok &= self._claims_where(lambda k, w=want: w in k)
                 criteria += 1
             if t.added_source is not None:
                 parts = nutrient_components(self.pack, row.nutrient)
-                ok &= np.array([bool(parts & s.get(t.added_source, set())) for s in self.added_sources], dtype=bool)
+                brings = np.zeros(n, dtype=bool)
+                for i in self.products_by_kind.get(t.added_source, []):
+                    brings[i] = bool(parts & self.added_sources[i].get(t.added_source, set()))
+                ok &= brings
                 criteria += 1
             if t.claim is not None:
                 want = "_".join(t.claim.lower().split())
-                ok &= np.array(
-                    [any(claim_key(x).startswith(want) for x in f.header.claims) for f in self.products], dtype=bool
-                )
+                ok &= self._claims_where(lambda k, w=want: k.startswith(w))
                 criteria += 1
             if t.present:
                 ok &= present

@@ -35,10 +35,13 @@ def allergen_report(comp: Composition, pack: RulePack) -> dict:
             "note": f"the '{pack.market}' pack has no allergen rules",
             "caution": ALLERGEN_CAUTION,
         }
+    with_data = [(i.id, set(i.allergens)) for i in used if i.allergens]
     for key, entry in rules.entries.items():
-        for i in used:
-            if i.allergens and set(i.allergens) & set(entry.from_keys):
-                present.setdefault(key, []).append(i.id)
+        if with_data:
+            keys = entry.key_set
+            for iid, have in with_data:
+                if have & keys:
+                    present.setdefault(key, []).append(iid)
 
         def below(v: float) -> bool:
             x, t = to_decimal(v * 10), to_decimal(entry.threshold_mg_per_kg or 0)

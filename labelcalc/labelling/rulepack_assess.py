@@ -6,6 +6,7 @@ They are optional sections of the same market pack as the panel rules.
 
 from __future__ import annotations
 
+from functools import cached_property
 from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
@@ -175,6 +176,11 @@ class AllergenEntry(Strict):
     component: str | None = Field(None, description="component holding the amount for a threshold (e.g. sulphites)")
     name_species: bool = Field(False, description="the specific kind must be named (e.g. the tree nut)")
     name_second: str | None = Field(None, description="the name in the market's second official language")
+
+    @cached_property
+    def key_set(self) -> frozenset[str]:
+        """``from_keys`` as a set, made once (the allergen report runs for every label)."""
+        return frozenset(self.from_keys)
 
 
 class Allergens(Strict):

@@ -69,10 +69,14 @@ class StatementTables(ClaimTables):
             return TriggerResult(t, flag, no)
         if t.substance:
             want = t.substance.lower()
-            hits = [[i.id for i in f.ingredients_used() if (i.substance or "").lower() == want] for f in self.products]
+            hits: list[list[str]] = [[] for _ in range(n)]
+            for i in self.products_by_substance.get(want, []):
+                hits[i] = [g.id for g in self.products[i].ingredients_used() if (g.substance or "").lower() == want]
             return TriggerResult(t, np.array([bool(h) for h in hits], dtype=bool), no, hits=hits)
         if t.kind:
-            hits = [[i.id for i in f.ingredients_used() if t.kind in i.kinds] for f in self.products]
+            hits = [[] for _ in range(n)]
+            for i in self.products_by_kind.get(t.kind, []):
+                hits[i] = [g.id for g in self.products[i].ingredients_used() if t.kind in g.kinds]
             return TriggerResult(t, np.array([bool(h) for h in hits], dtype=bool), no, hits=hits)
         if t.components:
             v, base_unk = self._trigger_value(t)

@@ -50,6 +50,14 @@ class EngineTables:
     def kinds(self) -> list[set[str]]:
         raise NotImplementedError
 
+    @property
+    def products_by_kind(self) -> dict[str, list[int]]:
+        raise NotImplementedError
+
+    @property
+    def products_by_substance(self) -> dict[str, list[int]]:
+        raise NotImplementedError
+
     def column_values(self, key: str, basis: str) -> np.ndarray:
         raise NotImplementedError
 

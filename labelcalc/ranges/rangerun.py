@@ -298,7 +298,7 @@ def _label(
                 res.errors += _error_row(c.formula.id, exc, p.market)
             failed_ids.add((c.formula.id, p.market))
         for i, c in enumerate(eng.comps):
-            row, declared, statements, allergens, claims = label_summary(eng, i)
+            row, declared, statements, allergens, claims = label_summary(eng, i, hashes is not None)
             f = c.formula
             res.rows.append(row)
             if hashes is not None:

@@ -54,9 +54,11 @@ def _tables(eng: LabelEngine) -> _Tables:
     return got
 
 
-def label_summary(eng: LabelEngine, i: int) -> tuple[dict, dict[str, str | None], list[str], list[str], list[str]]:
+def label_summary(
+    eng: LabelEngine, i: int, register: bool = True
+) -> tuple[dict, dict[str, str | None], list[str], list[str], list[str]]:
     """(summary row, declared texts by "nutrient|column[|%]", statements, allergens, eligible claims) of
-    product ``i``."""
+    product ``i``; the declared texts of every column only with ``register`` (only the register keeps them)."""
     pack = eng.pack
     tab = _tables(eng)
     comp = eng.comps[i]
@@ -90,6 +92,8 @@ def label_summary(eng: LabelEngine, i: int) -> tuple[dict, dict[str, str | None]
         pct = pcts.get(pb or main)
         if pct and pct[i]:
             row[pkey] = pct[i]
+        if not register:
+            continue
         for b in columns:
             declared[f"{n}|{b}"] = texts[b][i]
             pc = pcts.get(b)
