@@ -10,7 +10,8 @@ Every goal is measured as a ratio within one run, so a busy or a fast machine mo
    written; no register, no PDFs) for 3 markets with --jobs 1 and --jobs 2, against merely parsing the same files
    with PyYAML's C-accelerated safe loader in one process. Parse and range runs are interleaved and repeated; the
    ratio is taken pair by pair and reported as min and median.
-2. peak memory summed over the parent and its worker processes (sampled from the process tree).
+2. peak memory summed over the parent and its worker processes (sampled from the process tree): resident sets
+   (a page shared by forked processes counted in each) and proportional sets (shared pages split among them).
 3. the 20,000-formula time over the 10,000-formula time (--jobs 2).
 4. PDF panels per second with --jobs 2 (the range with --panels, less the same range without).
 5. `labelcalc panel` for one demo product and one market, interpreter start included.
@@ -53,33 +54,41 @@ def parse_only(folder: Path) -> float:
     return time.perf_counter() - t
 
 
-def tree_rss_mb(pid: int) -> float:
-    """Resident memory [MB] of a process and all its descendants, summed."""
+def tree_memory_mb(pid: int) -> tuple[float, float]:
+    """Memory [MB] of a process and all its descendants: (summed resident set, summed proportional set).
+
+    The resident sets count a page shared by several processes (workers forked from one server share the
+    libraries it loaded) once per process; the proportional sets split it among them, so their sum is the
+    memory the run occupies.  Without PSS (not Linux) the second figure repeats the first."""
     import psutil
 
     try:
         p = psutil.Process(pid)
         procs = [p, *p.children(recursive=True)]
     except psutil.NoSuchProcess:
-        return 0.0
-    total = 0
+        return 0.0, 0.0
+    rss = pss = 0
     for q in procs:
-        with contextlib.suppress(psutil.NoSuchProcess):
-            total += q.memory_info().rss
-    return total / 2**20
+        with contextlib.suppress(psutil.NoSuchProcess, psutil.AccessDenied):
+            info = q.memory_full_info()
+            rss += info.rss
+            pss += getattr(info, "pss", info.rss)
+    return rss / 2**20, pss / 2**20
 
 
-def run(cmd: list[str]) -> tuple[float, float]:
-    """Wall time [s] of a command and the peak of its process tree's summed resident memory [MB]."""
+def run(cmd: list[str]) -> tuple[float, float, float]:
+    """Wall time [s] of a command and the peaks of its process tree's summed resident and proportional
+    memory [MB] (see :func:`tree_memory_mb`)."""
     t = time.perf_counter()
     proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
-    peak = 0.0
+    peak = peak_pss = 0.0
     stop = threading.Event()
 
     def sample() -> None:
-        nonlocal peak
+        nonlocal peak, peak_pss
         while not stop.is_set():
-            peak = max(peak, tree_rss_mb(proc.pid))
+            rss, pss = tree_memory_mb(proc.pid)
+            peak, peak_pss = max(peak, rss), max(peak_pss, pss)
             stop.wait(0.05)
 
     th = threading.Thread(target=sample, daemon=True)
@@ -90,7 +99,7 @@ def run(cmd: list[str]) -> tuple[float, float]:
     th.join()
     if proc.returncode not in (0, 1):  # 1: some generated formulas are refused, correctly
         raise SystemExit(f"{' '.join(cmd)} failed ({proc.returncode}): {err.decode()[-2000:]}")
-    return wall, peak
+    return wall, peak, peak_pss
 
 
 def range_cmd(src: Path, out: Path, jobs: int, *, panels: bool = False) -> list[str]:
@@ -105,12 +114,14 @@ def _stats(xs: list[float]) -> dict:
 
 def measure_range(src: Path, work: Path, repeats: int) -> dict:
     """Interleaved parse / range runs: ratios pair by pair, times and summed peak memory."""
-    r1, r2, t1s, t2s, ps, m1, m2 = [], [], [], [], [], [], []
+    r1, r2, t1s, t2s, ps, m1, m2, q1, q2 = [], [], [], [], [], [], [], [], []
     for k in range(repeats):
         p = parse_only(src)
-        t1, mem1 = run(range_cmd(src, work / f"out-j1-{k}", 1))
+        t1, mem1, pss1 = run(range_cmd(src, work / f"out-j1-{k}", 1))
         p2 = parse_only(src)
-        t2, mem2 = run(range_cmd(src, work / f"out-j2-{k}", 2))
+        t2, mem2, pss2 = run(range_cmd(src, work / f"out-j2-{k}", 2))
+        q1.append(pss1)
+        q2.append(pss2)
         ps += [p, p2]
         t1s.append(t1)
         t2s.append(t2)
@@ -126,6 +137,8 @@ def measure_range(src: Path, work: Path, repeats: int) -> dict:
         "ratio_jobs2": _stats(r2),
         "peak_summed_rss_mb_jobs1": round(max(m1)),
         "peak_summed_rss_mb_jobs2": round(max(m2)),
+        "peak_summed_pss_mb_jobs1": round(max(q1)),
+        "peak_summed_pss_mb_jobs2": round(max(q2)),
     }
 
 
@@ -164,15 +177,19 @@ def main() -> None:
     print("scaling", results["scaling_jobs2"], flush=True)
     if "--with-100k" in sys.argv:
         src = generate(100_000, work / "range100000")
-        t, mem = run(range_cmd(src, work / "out-100k", 2))
-        results["100000"] = {"range_jobs2_s": round(t, 1), "peak_summed_rss_mb_jobs2": round(mem)}
+        t, mem, pss = run(range_cmd(src, work / "out-100k", 2))
+        results["100000"] = {
+            "range_jobs2_s": round(t, 1),
+            "peak_summed_rss_mb_jobs2": round(mem),
+            "peak_summed_pss_mb_jobs2": round(pss),
+        }
         print(100_000, results["100000"], flush=True)
     src = generate(npdf, work / f"pdf{npdf}")
     plain, with_pdf, rates = [], [], []
     for k in range(repeats):
-        t_plain, _ = run(range_cmd(src, work / f"pdf-plain-{k}", 2))
+        t_plain, *_ = run(range_cmd(src, work / f"pdf-plain-{k}", 2))
         out = work / f"pdf-out-{k}"
-        t_pdf, _ = run(range_cmd(src, out, 2, panels=True))
+        t_pdf, *_ = run(range_cmd(src, out, 2, panels=True))
         n_pdf = len(list(out.rglob("*.pdf")))
         plain.append(t_plain)
         with_pdf.append(t_pdf)

@@ -73,3 +73,43 @@ def test_parts_out_of_order_are_detected(tmp_path):
     assert not parts.in_order([a, b])
     assert [r["product_id"] for r in parts.read_rows([a, b])] == ["a", "b"]
     assert parts.columns([a, b]) == ["product_id", "market", "scenario", "x"]
+
+
+def test_spooled_data_reads_back_as_parsed(tmp_path):
+    from labelcalc.intake.catalogue import SpoolReader, classify_to_spool, yaml_files
+    from labelcalc.yamlsafe import load_yaml
+
+    src = _source(tmp_path)
+    files = yaml_files(src)
+    entries = classify_to_spool(files, tmp_path / "spool.pickle")
+    products = [e for e in entries if e.kind == "product"]
+    assert products and all(e.spooled is not None for e in products)
+    assert all(e.spooled is None for e in entries if e.kind != "product")
+    with SpoolReader() as rd:
+        for e in reversed(products):  # any order: each entry says where its data is
+            assert e.spooled is not None
+            assert rd.read(e.spooled) == load_yaml(e.path, with_lines=False).data
+
+
+def test_a_streamed_run_parses_each_product_file_once(tmp_path, monkeypatch):
+    """Classifying parses every file; loading a product reads the data spooled then (a product with a
+    problem is parsed again, with lines, to name them)."""
+    import collections
+
+    from labelcalc import yamlsafe
+
+    src = tmp_path / "src"
+    shutil.copytree(ROOT / "demo_products", src, ignore=shutil.ignore_patterns("*.csv", "*.xlsx"))
+    seen: collections.Counter = collections.Counter()
+    real = yamlsafe.parse_yaml_text
+
+    def counting(text, file, **kw):
+        seen[str(file)] += 1
+        return real(text, file, **kw)
+
+    monkeypatch.setattr(yamlsafe, "parse_yaml_text", counting)
+    (tmp_path / "parts").mkdir()
+    res = rangerun.run_range(src, src / "ingredients", ["eu"], with_labels=False, part_dir=tmp_path / "parts")
+    assert res.products_ok >= 5 and not res.errors
+    products = [f["file"] for f in res.files if f["kind"] == "product"]
+    assert products and all(seen[next(k for k in seen if k.endswith(p.rsplit("/", 1)[-1]))] == 1 for p in products)

@@ -18,6 +18,7 @@ and so does every formula that refers to the id.
 from __future__ import annotations
 
 import difflib
+import pickle
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 from pathlib import Path
@@ -39,6 +40,15 @@ NON_PRODUCTS = {
 FORMULA_KEYS = ("product", "subformula")
 
 
+@dataclass(frozen=True, slots=True)
+class Spooled:
+    """Where the parsed data of a product file was put while classifying it (see :func:`classify_to_spool`)."""
+
+    file: str
+    offset: int
+    size: int
+
+
 @dataclass(slots=True)
 class CatalogueEntry:
     """One YAML file: its kind ('product', 'subformula', a non-product kind or 'error') and id if any."""
@@ -47,6 +57,7 @@ class CatalogueEntry:
     kind: str
     id: str | None = None
     problems: list[Problem] | None = None
+    spooled: Spooled | None = None
 
     @property
     def shown(self) -> str:
@@ -73,6 +84,48 @@ def yaml_files(folder: Path) -> list[Path]:
 def classify(path: Path) -> CatalogueEntry:
     """Parse one file and say what it is; never raises for bad content."""
     return _classify(path)[0]
+
+
+def classify_to_spool(files: list[Path], spool: Path) -> list[CatalogueEntry]:
+    """Classify files as :func:`classify` does; the parsed data of each product file is appended to ``spool``
+    (pickled) and its entry says where, so a range parses each product file once however many processes
+    share the work and however large the range (the parent keeps three numbers per product, not its data).
+    ``spool`` is a private file of the run, read back only by :class:`SpoolReader` in the same run."""
+    out = []
+    with spool.open("ab") as fh:
+        for f in files:
+            e, data = _classify(f)
+            if e.kind == "product":
+                blob = pickle.dumps(data, protocol=pickle.HIGHEST_PROTOCOL)
+                e.spooled = Spooled(str(spool), fh.tell(), len(blob))
+                fh.write(blob)
+            out.append(e)
+    return out
+
+
+class SpoolReader:
+    """Reads spooled parsed data back (one open file per spool); use as a context manager."""
+
+    def __init__(self) -> None:
+        self._open: dict[str, object] = {}
+
+    def read(self, ref: Spooled):
+        fh = self._open.get(ref.file)
+        if fh is None:
+            fh = self._open[ref.file] = open(ref.file, "rb")  # noqa: SIM115 - closed in close()
+        fh.seek(ref.offset)  # type: ignore[attr-defined]
+        return pickle.loads(fh.read(ref.size))  # type: ignore[attr-defined]
+
+    def close(self) -> None:
+        for fh in self._open.values():
+            fh.close()  # type: ignore[attr-defined]
+        self._open.clear()
+
+    def __enter__(self) -> SpoolReader:
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self.close()
 
 
 def _classify(path: Path) -> tuple[CatalogueEntry, object]:

@@ -384,12 +384,14 @@ def load_formula(
     _cache: dict | None = None,
     _index: FormulaIndex | None = None,
     fast: bool = False,
+    parsed=None,
 ) -> Formula:
     """Load, validate and resolve a formula file and its sub-formulas.
 
     Sub-formulas are looked up by id in the formula's own folder tree (and in
     ``search`` folders).  Every problem in the file is collected and reported
-    together; nothing is returned from a half-valid formula.
+    together; nothing is returned from a half-valid formula.  ``parsed``: the file's data as parsed already
+    (a range run parses each product file once, to classify it); with ``fast`` only.
     """
     p = Path(path)
     cache = {} if _cache is None else _cache
@@ -398,7 +400,7 @@ def load_formula(
         return cache[key]
     index = _index or FormulaIndex([p.parent.resolve(), *[Path(s).resolve() for s in (search or [])]])
     if fast:  # parse once without line tracking; on any problem parse again to report lines
-        kept = index.take_parsed(p)
+        kept = index.take_parsed(p) if parsed is None else parsed
         try:
             loaded = load_yaml(p, with_lines=False) if kept is None else LoadedYaml(kept, {}, display_path(p) or str(p))
             formula = _build(loaded, library, index, _stack, cache)

@@ -16,7 +16,7 @@ from pathlib import Path
 
 from labelcalc.errors import InputError, LabelError, Problem, display_path
 from labelcalc.formulation.composition import compose, compose_many
-from labelcalc.intake.catalogue import CatalogueEntry, classify, other_files
+from labelcalc.intake.catalogue import CatalogueEntry, Spooled, SpoolReader, classify, classify_to_spool, other_files
 from labelcalc.intake.formula import Formula, FormulaIndex, build_formula, load_formula
 from labelcalc.intake.library import Library, load_library
 from labelcalc.intake.sources import index_for, sheet_products
@@ -51,6 +51,7 @@ class ProductFile:
 
     path: str
     id: str
+    spooled: Spooled | None = None  # where its data, parsed while classifying it, waits
 
 
 @dataclass
@@ -168,7 +169,7 @@ def enumerate_products(
                     )
                 )
             elif e.kind == "product":
-                items.append(ProductFile(str(e.path), e.id or ""))
+                items.append(ProductFile(str(e.path), e.id or "", e.spooled))
         skip = [x.resolve() for x in exclude or []]
         for f in other_files(source):
             if any(f.resolve().is_relative_to(x) for x in skip):
@@ -226,6 +227,7 @@ def run_chunk(
     res = RangeResult()
     cache: dict = dict(subformulas) if subformulas else {}
     formulas: list[Formula] = []
+    spool = SpoolReader()
     for it in items:
         if isinstance(it, ItemError):
             res.errors += _problem_rows(it.product_id, it.problems)
@@ -234,7 +236,8 @@ def run_chunk(
         pid, file = _item_ident(it)
         try:
             if isinstance(it, ProductFile):
-                f = load_formula(it.path, library, _cache=cache, _index=index, fast=True)
+                data = spool.read(it.spooled) if it.spooled else None
+                f = load_formula(it.path, library, _cache=cache, _index=index, fast=True, parsed=data)
             else:
                 if "__error__" in it.data:
                     raise it.data["__error__"]
@@ -248,6 +251,7 @@ def run_chunk(
             _crash(res, pid, file, exc)
             continue
         formulas.append(f)
+    spool.close()
     if subformulas is not None:
         subformulas.update((k, g) for k, g in cache.items() if g.kind == "subformula")
     try:
@@ -354,17 +358,18 @@ def _worker(items: list, part: Path | None) -> RangeResult:
     )
 
 
-def _classify_share(files: list[Path]) -> list[CatalogueEntry]:
-    return [classify(f) for f in files]
+def _classify_share(files: list[Path], spool: Path | None) -> list[CatalogueEntry]:
+    return classify_to_spool(files, spool) if spool is not None else [classify(f) for f in files]
 
 
-def _classify_shared(files: list[Path], jobs: int) -> list[CatalogueEntry]:
-    """Classify files (each parsed) in ``jobs`` worker processes, in order."""
+def _classify_shared(files: list[Path], jobs: int, spool_dir: Path | None) -> list[CatalogueEntry]:
+    """Classify files (each parsed) in ``jobs`` worker processes, in order; with ``spool_dir`` each share puts
+    its product files' parsed data in a spool file there (see :func:`classify_to_spool`)."""
     n = max(1, -(-len(files) // (jobs * 4)))
+    shares = [files[i : i + n] for i in range(0, len(files), n)]
+    spools = [spool_dir / f"spool-{k:05d}.pickle" if spool_dir is not None else None for k in range(len(shares))]
     with ProcessPoolExecutor(max_workers=jobs, mp_context=mp_context()) as ex:
-        return [
-            e for share in ex.map(_classify_share, [files[i : i + n] for i in range(0, len(files), n)]) for e in share
-        ]
+        return [e for share in ex.map(_classify_share, shares, spools) for e in share]
 
 
 def _share_key(it) -> str:
@@ -373,10 +378,6 @@ def _share_key(it) -> str:
         return it.id
     return it.product_id
 
-
-#: a streamed run in one process keeps the parsed data of at most this many product files from classifying
-#: them to loading them; the others are parsed again (memory stays flat on a large range)
-KEEP_PARSED = 2000
 
 #: products per share of a streamed run: bounds a worker's memory; large enough for the table operations
 STREAM_SHARE = 1000
@@ -404,9 +405,9 @@ def run_range(
     library = load_library(library_path)
     packs = get_packs(markets, rules)
     if jobs > 1 and source.is_dir():  # the files are parsed to be classified by the workers too
-        index = FormulaIndex([source], classify_all=lambda files: _classify_shared(files, jobs))
-    elif part_dir is not None and source.is_dir():  # streamed: parsed data kept for a bounded number of files
-        index = FormulaIndex([source], keep_products=KEEP_PARSED)
+        index = FormulaIndex([source], classify_all=lambda files: _classify_shared(files, jobs, part_dir))
+    elif part_dir is not None and source.is_dir():  # streamed: parsed data spooled from classifying to loading
+        index = FormulaIndex([source], classify_all=lambda files: classify_to_spool(files, part_dir / "spool.pickle"))
     else:
         index = index_for(source)
     items, inventory = enumerate_products(source, index, exclude)
