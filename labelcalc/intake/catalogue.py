@@ -92,12 +92,13 @@ def classify_to_spool(files: list[Path], spool: Path) -> list[CatalogueEntry]:
     share the work and however large the range (the parent keeps three numbers per product, not its data).
     ``spool`` is a private file of the run, read back only by :class:`SpoolReader` in the same run."""
     out = []
+    name = str(spool)  # one text object for every entry of the share (pickled once with them)
     with spool.open("ab") as fh:
         for f in files:
             e, data = _classify(f)
             if e.kind == "product":
                 blob = pickle.dumps(data, protocol=pickle.HIGHEST_PROTOCOL)
-                e.spooled = Spooled(str(spool), fh.tell(), len(blob))
+                e.spooled = Spooled(name, fh.tell(), len(blob))
                 fh.write(blob)
             out.append(e)
     return out
