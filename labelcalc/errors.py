@@ -77,20 +77,25 @@ def display_path(path: str | Path | None) -> str | None:
     return _shown(str(path), os.getcwd())
 
 
-@lru_cache(maxsize=4096)
+def real_file_path(path: str) -> str:
+    """The absolute path of a file with its folders' links and ``..`` resolved, each folder once per run (a
+    range names thousands of files in a few folders); a file that is itself a link is resolved to its target."""
+    if os.path.islink(path):
+        return os.path.realpath(path)
+    head, name = os.path.split(path)
+    return os.path.join(_real_folder(head or "."), name)
+
+
+@lru_cache(maxsize=1024)
+def _real_folder(folder: str) -> str:
+    return os.path.realpath(folder)
+
+
 def _shown(path: str, cwd: str) -> str:
-    """A file is named several times, one soon after another, while it is read and labelled: resolved once
-    per working folder (a file's place does not change during a run)."""
-    p = Path(path)
-    try:
-        return str(p.resolve().relative_to(_cwd(cwd)))
-    except ValueError:
-        return str(p)
-
-
-@lru_cache(maxsize=4)
-def _cwd(cwd: str) -> Path:
-    return Path(cwd).resolve()
+    full, base = real_file_path(path), _real_folder(cwd)
+    if full.startswith(base.rstrip(os.sep) + os.sep):
+        return full[len(base.rstrip(os.sep)) + 1 :]
+    return path
 
 
 @dataclass

@@ -23,7 +23,7 @@ from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 from pathlib import Path
 
-from labelcalc.errors import InputError, Problem, display_path
+from labelcalc.errors import InputError, Problem, display_path, real_file_path
 from labelcalc.yamlsafe import load_yaml
 
 YAML_SUFFIXES = (".yaml", ".yml")
@@ -227,7 +227,7 @@ class FormulaIndex:
         files = []
         for folder in folders:
             for f in yaml_files(folder):
-                key = str(f.resolve())
+                key = real_file_path(str(f))
                 if key not in seen:
                     seen.add(key)
                     files.append(f)

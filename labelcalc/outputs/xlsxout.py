@@ -49,6 +49,10 @@ _TAIL = [
 ]
 
 
+#: summary fields that are never a nutrient amount column (their printed form does not matter to the plan)
+_NOT_AMOUNTS = frozenset([k for k, *_ in _LEAD] + [k for k, *_ in _TAIL] + ["market", "column"])
+
+
 def _number(text):
     """(number, is plain) of a printed amount: '8.3 g' -> (8.3, True); 'less than 1 g' -> (None, False)."""
     if text is None or text == "":
@@ -107,7 +111,8 @@ class SheetPlan:
         self.keys.update(row)
         printed = self.printed
         for k, v in row.items():
-            if v is None or k in printed or isinstance(v, (int, float)):  # numbers and blanks are plain
+            # numbers and blanks are plain; fields that are never an amount column need no look
+            if v is None or k in printed or k in _NOT_AMOUNTS or isinstance(v, (int, float)):
                 continue
             if not _number(v)[1]:
                 printed.add(k)
