@@ -365,3 +365,65 @@ def test_canada_sugars_based_ingredients_grouped(lab):
     p = lab.formula("sg", [{"ingredient": i, "amount": g} for i, g in batch])
     text = lab.assess(p, pack=PACKS["ca"]).ingredient_list["text"]
     assert text == "Ingredients: Wheat flour, Sugars (glucose syrup, sugar), Oats."
+
+
+# ------------------------------------------------------------------ 21 CFR 101.9, eCFR text as of 2026-08-27
+# (read in full in the copy at GitHub mccallar/cfr-mcp, tests/fixtures/section_21_101_9.xml)
+
+
+def test_us_other_vitamins_follow_the_rdi_table_order():
+    # 21 CFR 101.9(c)(8)(ii)(B): additional vitamins and minerals "shall be listed in the order established in
+    # paragraph (c)(8)(iv)": vitamin A, vitamin C, vitamin E, vitamin K, thiamin, riboflavin, niacin, ...
+    order = [r.nutrient for r in PACKS["us"].rows]
+    after_potassium = order[order.index("potassium") + 1 :]
+    assert after_potassium[:7] == [
+        "vitamin_a",
+        "vitamin_c",
+        "vitamin_e",
+        "vitamin_k",
+        "thiamin",
+        "riboflavin",
+        "niacin",
+    ]
+
+
+def test_us_footnote_is_the_wording_of_the_rule():
+    # 21 CFR 101.9(d)(9): "The footnote shall state: '*The % Daily Value tells you how much a nutrient in a
+    # serving of food contributes to a daily diet. 2,000 calories a day is used for general nutrition advice.'"
+    (note,) = [f for f in PACKS["us"].panel.footnotes if f.when == "percent_shown"]
+    assert note.text == (
+        "*The % Daily Value tells you how much a nutrient in a serving of food contributes to a daily diet. "
+        "2,000 calories a day is used for general nutrition advice."
+    )
+
+
+def test_us_sugar_alcohol_not_held_to_the_class_ii_minimum(lab):
+    # 21 CFR 101.9(g)(4)(ii): the 80 % minimum covers a vitamin, mineral, protein, total carbohydrate,
+    # polyunsaturated or monounsaturated fat, or dietary fiber; sugar alcohols appear only in (g)(6) (a
+    # reasonable excess is acceptable) - an analysed sugar alcohol far below the label is not judged.
+    from labelcalc.lab.certificates import LabFile
+    from labelcalc.lab.verify import NOT_JUDGED, verify
+
+    us = PACKS["us"]
+    base = lab.add("base", {"starch": 60, "water": 30})
+    sorb = lab.add("sorb", {"sorbitol": 99, "water": 1}, kinds=["polyol"])
+    p = lab.formula(
+        "sa", [{"ingredient": base, "amount": "90 g"}, {"ingredient": sorb, "amount": "10 g"}], serving="100 g"
+    )
+    lib = lab.library()
+    (c,) = compose(load_formula(p, lib), lib)
+    cert = LabFile.model_validate(
+        {
+            "certificate": {"product_id": "sa"},
+            "results": [
+                {"analyte": "polyols", "value": 2.0, "unit": "g"},
+                {"analyte": "starch", "value": 40.0, "unit": "g"},
+            ],
+        }
+    )
+    rows = {r.nutrient: r for r in verify(c, declare(c, us), cert, margin_percent=0).rows}
+    assert rows["sugar_alcohol"].verdict == NOT_JUDGED
+    assert rows["sugar_alcohol"].notes == ["no compliance rule in the pack covers this row"]
+    # starch-based total carbohydrate stays a Class II nutrient in the pack's rule, (g)(4)(ii)
+    class_ii = next(r for r in us.compliance.rules if r.id == "class_ii_naturally_occurring")
+    assert "total_carbohydrate" in class_ii.nutrients and "sugar_alcohol" not in class_ii.nutrients
