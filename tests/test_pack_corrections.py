@@ -427,3 +427,11 @@ def test_us_sugar_alcohol_not_held_to_the_class_ii_minimum(lab):
     # starch-based total carbohydrate stays a Class II nutrient in the pack's rule, (g)(4)(ii)
     class_ii = next(r for r in us.compliance.rules if r.id == "class_ii_naturally_occurring")
     assert "total_carbohydrate" in class_ii.nutrients and "sugar_alcohol" not in class_ii.nutrients
+
+
+def test_us_panel_type_meets_the_minimum_sizes():
+    # 21 CFR 101.9(d)(1)(iii): the nutrient lines of (d)(7) and (d)(8) no smaller than 8 point; "Calories" no
+    # smaller than 16 point and its figure no smaller than 22 point (the large calories line draws both).
+    lay = PACKS["us"].panel.layout
+    assert lay.body_size_pt >= 8
+    assert lay.energy_large and lay.body_size_pt * lay.energy_size_factor >= 22
