@@ -435,3 +435,66 @@ def test_us_panel_type_meets_the_minimum_sizes():
     lay = PACKS["us"].panel.layout
     assert lay.body_size_pt >= 8
     assert lay.energy_large and lay.body_size_pt * lay.energy_size_factor >= 22
+
+
+# ------------------------------------------------------------------ ANZ Food Standards Code, as in force 29 Oct 2024
+# (read in FSANZ's Food Standards Code compilation of March 2025, text-extracted in GitHub
+# jaisurya14/FSANZ-Regulatory-Assistant, data/processed/chunks.json)
+
+ANZ_LIQUID = {"form": "liquid", "density_g_per_ml": 1.0}
+
+
+@pytest.fixture
+def anz(tmp_path):
+    return Lab(tmp_path, PACKS["anz"])
+
+
+@pytest.mark.parametrize(
+    "claim_id, sugars, extra, expected",
+    [
+        # Schedule 4, S4—3, sugar or sugars, 'no added' (c): no more sugars than 10 g/100 g for solid food ...
+        ("no_added_sugar", 10, None, ELIGIBLE),
+        ("no_added_sugar", 10.1, None, NOT_ELIGIBLE),
+        # ... or 7.5 g/100 mL for liquid food
+        ("no_added_sugar_liquid", 7.5, ANZ_LIQUID, ELIGIBLE),
+        ("no_added_sugar_liquid", 7.6, ANZ_LIQUID, NOT_ELIGIBLE),
+    ],
+)
+def test_anz_no_added_sugar_caps_total_sugars(anz, claim_id, sugars, extra, expected):
+    # sugars naturally present (no ingredient added as a sugar): only condition (c) can fail
+    p = one(anz, {"sugars": sugars, "starch": 50, "water": 40}, fid="nas", extra=extra)
+    assert verdict(anz.assess(p), claim_id) == expected
+
+
+@pytest.mark.parametrize("trans, expected", [(0, ELIGIBLE), (0.2, NOT_ELIGIBLE)])
+def test_anz_saturated_fat_free_needs_no_detectable_trans(anz, trans, expected):
+    # Schedule 4, S4—3, saturated fatty acids, 'free': (a) no detectable saturated fatty acids and (b) no
+    # detectable trans fatty acids
+    p = one(anz, {"fat": 1, "trans_fa": trans, "saturated_fa": 0, "starch": 60}, fid="sff")
+    assert verdict(anz.assess(p), "saturated_fat_free") == expected
+
+
+def test_anz_low_sodium_is_per_100_ml_for_liquids():
+    # Schedule 4, S4—3, salt or sodium, 'low': 120 mg/100 mL for liquid food or 120 mg/100 g for solid food
+    (cond,) = next(c for c in PACKS["anz"].claims if c.id == "low_sodium").conditions
+    assert (cond.basis, cond.value) == ("per_100g_or_100ml", 120)
+
+
+def _shown(lab, per100, claims):
+    lib_path = one(lab, per100, fid="row", claims=claims)
+    lib = lab.library()
+    (c,) = compose(load_formula(lib_path, lib), lib)
+    return {r.nutrient for r in declare(c, PACKS["anz"]).shown_rows}
+
+
+def test_anz_sodium_claim_declares_potassium(anz):
+    # Std 1.2.8—6(12): a claim about salt or sodium - the panel must declare the average quantity of potassium
+    assert "potassium" in _shown(anz, {"starch": 60, "sodium": 50, "potassium": 200}, ["low_sodium"])
+    assert "potassium" not in _shown(anz, {"starch": 60, "sodium": 50, "potassium": 200}, [])
+
+
+def test_anz_sugar_claim_declares_dietary_fibre(anz):
+    # Std 1.2.8—6(5): a claim about sugars or any other carbohydrate - the panel must declare the presence or
+    # absence of dietary fibre
+    assert "fibre" in _shown(anz, {"starch": 60, "sugars": 2, "fibre_insoluble": 3}, ["low_sugar"])
+    assert "fibre" not in _shown(anz, {"starch": 60, "sugars": 2, "fibre_insoluble": 3}, [])
