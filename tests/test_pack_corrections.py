@@ -324,12 +324,9 @@ def test_statement_triggers_same_in_a_range(lab):
     [
         # Reg. (EU) No 1169/2011 Annex VII Part C: category name followed by the specific name
         ("eu", "Ingredients: Base, Sweeteners: Sorbitol, Aspartame, Acid: Citric acid, Preservative: Sorbic acid."),
-        # FSANZ Std 1.2.4—7: class name followed by the specific name in brackets; acids as acidity regulators
-        (
-            "anz",
-            "Ingredients: Base, Sweeteners (Sorbitol, Aspartame), Acidity regulator (Citric acid), "
-            "Preservative (Sorbic acid).",
-        ),
+        # FSANZ Std 1.2.4—7(1)(a): Schedule 7 class name followed by the specific name in brackets; "acid" is a
+        # prescribed class of S7—2 of its own (Code compilation of March 2025)
+        ("anz", "Ingredients: Base, Sweeteners (Sorbitol, Aspartame), Acid (Citric acid), Preservative (Sorbic acid)."),
         # 21 CFR 101.22(j): a chemical preservative by its name followed by its function; no other class names
         ("us", "Ingredients: Base, Sorbitol, Citric acid, Sorbic acid (preservative), Aspartame."),
         # FDR B.01.010: common names only (no class designation set)
@@ -498,3 +495,20 @@ def test_anz_sugar_claim_declares_dietary_fibre(anz):
     # absence of dietary fibre
     assert "fibre" in _shown(anz, {"starch": 60, "sugars": 2, "fibre_insoluble": 3}, ["low_sugar"])
     assert "fibre" not in _shown(anz, {"starch": 60, "sugars": 2, "fibre_insoluble": 3}, [])
+
+
+def test_anz_only_schedule_7_class_names(anz):
+    # FSANZ Std 1.2.4—7(1): the class name must be one of Schedule 7 (S7—2), otherwise the substance is listed by
+    # its Schedule 8 name alone; "sequestrant" is not a Schedule 7 class, "anticaking agent" is one word
+    batch = [
+        (anz.add("base", {"starch": 80, "water": 20}, name="Base"), "97 g"),
+        (
+            anz.add("edta", {"sodium": 10, "water": 1}, name="Calcium disodium EDTA", functional_class="sequestrant"),
+            "1 g",
+        ),
+        (anz.add("sil", {"ash": 99, "water": 1}, name="Silicon dioxide", functional_class="anti_caking_agent"), "2 g"),
+    ]
+    p = anz.formula("s7", [{"ingredient": i, "amount": g} for i, g in batch])
+    assert anz.assess(p).ingredient_list["text"] == (
+        "Ingredients: Base, Anticaking agent (Silicon dioxide), Calcium disodium EDTA."
+    )
