@@ -332,15 +332,15 @@ def test_added_water_below_5_percent_need_not_be_listed(lab, finished_g, listed)
         assert "need not be listed" in il["notes"][0]
 
 
-# --- Schedule 4 claims added with the vitamin and mineral work (S4—3 not read: from memory — verify) --------------
+# --- Schedule 4 claims added with the vitamin and mineral work (S4—3 as in force 29 Oct 2024 read) -------------
 @pytest.mark.parametrize("sodium, expected", [(50, ELIGIBLE), (50.1, NOT_ELIGIBLE)])
 def test_very_low_sodium(lab, sodium, expected):
-    # S4—3, sodium or salt, 'very low': no more than 50 mg per 100 g
+    # labelcalc's own 'very low' line, 50 mg per 100 g: S4—3 (read) has no 'very low' descriptor for sodium
     assert verdict(lab.assess(one(lab, {"starch": 60, "sodium": sodium}, fid="vls")), "very_low_sodium") == expected
 
 
 def test_no_added_salt_fails_with_added_salt(lab):
-    # S4—3, sodium or salt, 'no added': no added sodium compound including salt
+    # Schedule 4, S4—3, salt or sodium, 'no added': no added sodium compound including no added salt
     assert verdict(lab.assess(one(lab, {"starch": 60, "sodium": 200}, fid="nas")), "no_added_salt") == ELIGIBLE
     base = lab.add("base2", {"starch": 60})
     salt = lab.add("salt2", {"sodium": 39000, "ash": 99}, name="Salt", kinds=["salt"])

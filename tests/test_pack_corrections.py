@@ -324,12 +324,9 @@ def test_statement_triggers_same_in_a_range(lab):
     [
         # Reg. (EU) No 1169/2011 Annex VII Part C: category name followed by the specific name
         ("eu", "Ingredients: Base, Sweeteners: Sorbitol, Aspartame, Acid: Citric acid, Preservative: Sorbic acid."),
-        # FSANZ Std 1.2.4—7: class name followed by the specific name in brackets; acids as acidity regulators
-        (
-            "anz",
-            "Ingredients: Base, Sweeteners (Sorbitol, Aspartame), Acidity regulator (Citric acid), "
-            "Preservative (Sorbic acid).",
-        ),
+        # FSANZ Std 1.2.4—7(1)(a): Schedule 7 class name followed by the specific name in brackets; "acid" is a
+        # prescribed class of S7—2 of its own (Code compilation of March 2025)
+        ("anz", "Ingredients: Base, Sweeteners (Sorbitol, Aspartame), Acid (Citric acid), Preservative (Sorbic acid)."),
         # 21 CFR 101.22(j): a chemical preservative by its name followed by its function; no other class names
         ("us", "Ingredients: Base, Sorbitol, Citric acid, Sorbic acid (preservative), Aspartame."),
         # FDR B.01.010: common names only (no class designation set)
@@ -365,3 +362,153 @@ def test_canada_sugars_based_ingredients_grouped(lab):
     p = lab.formula("sg", [{"ingredient": i, "amount": g} for i, g in batch])
     text = lab.assess(p, pack=PACKS["ca"]).ingredient_list["text"]
     assert text == "Ingredients: Wheat flour, Sugars (glucose syrup, sugar), Oats."
+
+
+# ------------------------------------------------------------------ 21 CFR 101.9, eCFR text as of 2026-08-27
+# (read in full in the copy at GitHub mccallar/cfr-mcp, tests/fixtures/section_21_101_9.xml)
+
+
+def test_us_other_vitamins_follow_the_rdi_table_order():
+    # 21 CFR 101.9(c)(8)(ii)(B): additional vitamins and minerals "shall be listed in the order established in
+    # paragraph (c)(8)(iv)": vitamin A, vitamin C, vitamin E, vitamin K, thiamin, riboflavin, niacin, ...
+    order = [r.nutrient for r in PACKS["us"].rows]
+    after_potassium = order[order.index("potassium") + 1 :]
+    assert after_potassium[:7] == [
+        "vitamin_a",
+        "vitamin_c",
+        "vitamin_e",
+        "vitamin_k",
+        "thiamin",
+        "riboflavin",
+        "niacin",
+    ]
+
+
+def test_us_footnote_is_the_wording_of_the_rule():
+    # 21 CFR 101.9(d)(9): "The footnote shall state: '*The % Daily Value tells you how much a nutrient in a
+    # serving of food contributes to a daily diet. 2,000 calories a day is used for general nutrition advice.'"
+    (note,) = [f for f in PACKS["us"].panel.footnotes if f.when == "percent_shown"]
+    assert note.text == (
+        "*The % Daily Value tells you how much a nutrient in a serving of food contributes to a daily diet. "
+        "2,000 calories a day is used for general nutrition advice."
+    )
+
+
+def test_us_sugar_alcohol_not_held_to_the_class_ii_minimum(lab):
+    # 21 CFR 101.9(g)(4)(ii): the 80 % minimum covers a vitamin, mineral, protein, total carbohydrate,
+    # polyunsaturated or monounsaturated fat, or dietary fiber; sugar alcohols appear only in (g)(6) (a
+    # reasonable excess is acceptable) - an analysed sugar alcohol far below the label is not judged.
+    from labelcalc.lab.certificates import LabFile
+    from labelcalc.lab.verify import NOT_JUDGED, verify
+
+    us = PACKS["us"]
+    base = lab.add("base", {"starch": 60, "water": 30})
+    sorb = lab.add("sorb", {"sorbitol": 99, "water": 1}, kinds=["polyol"])
+    p = lab.formula(
+        "sa", [{"ingredient": base, "amount": "90 g"}, {"ingredient": sorb, "amount": "10 g"}], serving="100 g"
+    )
+    lib = lab.library()
+    (c,) = compose(load_formula(p, lib), lib)
+    cert = LabFile.model_validate(
+        {
+            "certificate": {"product_id": "sa"},
+            "results": [
+                {"analyte": "polyols", "value": 2.0, "unit": "g"},
+                {"analyte": "starch", "value": 40.0, "unit": "g"},
+            ],
+        }
+    )
+    rows = {r.nutrient: r for r in verify(c, declare(c, us), cert, margin_percent=0).rows}
+    assert rows["sugar_alcohol"].verdict == NOT_JUDGED
+    assert rows["sugar_alcohol"].notes == ["no compliance rule in the pack covers this row"]
+    # starch-based total carbohydrate stays a Class II nutrient in the pack's rule, (g)(4)(ii)
+    class_ii = next(r for r in us.compliance.rules if r.id == "class_ii_naturally_occurring")
+    assert "total_carbohydrate" in class_ii.nutrients and "sugar_alcohol" not in class_ii.nutrients
+
+
+def test_us_panel_type_meets_the_minimum_sizes():
+    # 21 CFR 101.9(d)(1)(iii): the nutrient lines of (d)(7) and (d)(8) no smaller than 8 point; "Calories" no
+    # smaller than 16 point and its figure no smaller than 22 point (the large calories line draws both).
+    lay = PACKS["us"].panel.layout
+    assert lay.body_size_pt >= 8
+    assert lay.energy_large and lay.body_size_pt * lay.energy_size_factor >= 22
+
+
+# ------------------------------------------------------------------ ANZ Food Standards Code, as in force 29 Oct 2024
+# (read in FSANZ's Food Standards Code compilation of March 2025, text-extracted in GitHub
+# jaisurya14/FSANZ-Regulatory-Assistant, data/processed/chunks.json)
+
+ANZ_LIQUID = {"form": "liquid", "density_g_per_ml": 1.0}
+
+
+@pytest.fixture
+def anz(tmp_path):
+    return Lab(tmp_path, PACKS["anz"])
+
+
+@pytest.mark.parametrize(
+    "claim_id, sugars, extra, expected",
+    [
+        # Schedule 4, S4—3, sugar or sugars, 'no added' (c): no more sugars than 10 g/100 g for solid food ...
+        ("no_added_sugar", 10, None, ELIGIBLE),
+        ("no_added_sugar", 10.1, None, NOT_ELIGIBLE),
+        # ... or 7.5 g/100 mL for liquid food
+        ("no_added_sugar_liquid", 7.5, ANZ_LIQUID, ELIGIBLE),
+        ("no_added_sugar_liquid", 7.6, ANZ_LIQUID, NOT_ELIGIBLE),
+    ],
+)
+def test_anz_no_added_sugar_caps_total_sugars(anz, claim_id, sugars, extra, expected):
+    # sugars naturally present (no ingredient added as a sugar): only condition (c) can fail
+    p = one(anz, {"sugars": sugars, "starch": 50, "water": 40}, fid="nas", extra=extra)
+    assert verdict(anz.assess(p), claim_id) == expected
+
+
+@pytest.mark.parametrize("trans, expected", [(0, ELIGIBLE), (0.2, NOT_ELIGIBLE)])
+def test_anz_saturated_fat_free_needs_no_detectable_trans(anz, trans, expected):
+    # Schedule 4, S4—3, saturated fatty acids, 'free': (a) no detectable saturated fatty acids and (b) no
+    # detectable trans fatty acids
+    p = one(anz, {"fat": 1, "trans_fa": trans, "saturated_fa": 0, "starch": 60}, fid="sff")
+    assert verdict(anz.assess(p), "saturated_fat_free") == expected
+
+
+def test_anz_low_sodium_is_per_100_ml_for_liquids():
+    # Schedule 4, S4—3, salt or sodium, 'low': 120 mg/100 mL for liquid food or 120 mg/100 g for solid food
+    (cond,) = next(c for c in PACKS["anz"].claims if c.id == "low_sodium").conditions
+    assert (cond.basis, cond.value) == ("per_100g_or_100ml", 120)
+
+
+def _shown(lab, per100, claims):
+    lib_path = one(lab, per100, fid="row", claims=claims)
+    lib = lab.library()
+    (c,) = compose(load_formula(lib_path, lib), lib)
+    return {r.nutrient for r in declare(c, PACKS["anz"]).shown_rows}
+
+
+def test_anz_sodium_claim_declares_potassium(anz):
+    # Std 1.2.8—6(12): a claim about salt or sodium - the panel must declare the average quantity of potassium
+    assert "potassium" in _shown(anz, {"starch": 60, "sodium": 50, "potassium": 200}, ["low_sodium"])
+    assert "potassium" not in _shown(anz, {"starch": 60, "sodium": 50, "potassium": 200}, [])
+
+
+def test_anz_sugar_claim_declares_dietary_fibre(anz):
+    # Std 1.2.8—6(5): a claim about sugars or any other carbohydrate - the panel must declare the presence or
+    # absence of dietary fibre
+    assert "fibre" in _shown(anz, {"starch": 60, "sugars": 2, "fibre_insoluble": 3}, ["low_sugar"])
+    assert "fibre" not in _shown(anz, {"starch": 60, "sugars": 2, "fibre_insoluble": 3}, [])
+
+
+def test_anz_only_schedule_7_class_names(anz):
+    # FSANZ Std 1.2.4—7(1): the class name must be one of Schedule 7 (S7—2), otherwise the substance is listed by
+    # its Schedule 8 name alone; "sequestrant" is not a Schedule 7 class, "anticaking agent" is one word
+    batch = [
+        (anz.add("base", {"starch": 80, "water": 20}, name="Base"), "97 g"),
+        (
+            anz.add("edta", {"sodium": 10, "water": 1}, name="Calcium disodium EDTA", functional_class="sequestrant"),
+            "1 g",
+        ),
+        (anz.add("sil", {"ash": 99, "water": 1}, name="Silicon dioxide", functional_class="anti_caking_agent"), "2 g"),
+    ]
+    p = anz.formula("s7", [{"ingredient": i, "amount": g} for i, g in batch])
+    assert anz.assess(p).ingredient_list["text"] == (
+        "Ingredients: Base, Anticaking agent (Silicon dioxide), Calcium disodium EDTA."
+    )
