@@ -10,6 +10,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from decimal import ROUND_HALF_EVEN, ROUND_HALF_UP, Decimal
+from functools import lru_cache
 from typing import Literal
 
 import numpy as np
@@ -183,7 +184,9 @@ def q_of(x: np.ndarray) -> np.ndarray:
     return np.round(a * Q).astype(np.int64)
 
 
+@lru_cache(maxsize=8192)
 def q_scalar(v: float) -> int:
+    """A rule's threshold or step as a 1e-9 integer (a pack has few: each is converted once)."""
     return _q_of_decimal(to_decimal(v))
 
 
