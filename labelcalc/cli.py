@@ -922,6 +922,27 @@ def rules_show(market: str = typer.Argument(..., help="Market code."), rules: Pa
         typer.echo(f"  {k}: {rr.citation} ({rr.confidence})")
 
 
+@rules_app.command("unverified")
+@friendly
+def rules_unverified(
+    market: str = typer.Argument(..., help="Market code."),
+    all_levels: bool = typer.Option(
+        False, "--all", help="Also values read in a secondary source or taken from common practice."
+    ),
+    rules: Path | None = RulesOpt,
+):
+    """Values of a pack (and its energy factors) not yet checked against the legal text, with their citations:
+    what to verify first before relying on a draft."""
+    from labelcalc.labelling.rulepack import NOT_CONFIRMED, UNCHECKED, unverified_entries
+
+    (p,) = get_packs([market], rules)
+    found = unverified_entries(p, NOT_CONFIRMED if all_levels else UNCHECKED)
+    for where, confidence, citation in found:
+        typer.echo(f"{where} ({confidence}): {citation}")
+    levels = "not confirmed against the text" if all_levels else "marked 'from memory — verify'"
+    typer.echo(f"{len(found)} value(s) of the '{p.market}' pack {levels}.")
+
+
 @rules_app.command("check")
 @friendly
 def rules_check(file: Path = typer.Argument(..., help="A rule pack file or a folder of packs.")):

@@ -566,3 +566,42 @@ def _add_lines(problems: list[Problem], file: str) -> None:
     for p in problems:
         if p.field and p.line is None:
             p.line = loaded.line_of(tuple(p.field.split(".")))
+
+
+#: how sure a pack is of a value, from least to most; `labelcalc rules unverified` lists the first (or, with
+#: ``--all``, every level below "confirmed")
+UNCHECKED = ("from memory — verify",)
+NOT_CONFIRMED = ("from memory — verify", "secondary", "common practice")
+
+
+def _entry_name(entry: dict) -> str | None:
+    """What a list entry is called: its id, its nutrient or the components a factor is for."""
+    if entry.get("id") or entry.get("nutrient"):
+        return str(entry.get("id") or entry.get("nutrient"))
+    comps = entry.get("components")
+    return "+".join(map(str, comps)) if isinstance(comps, list) and comps else None
+
+
+def unverified_entries(pack: RulePack, levels: tuple[str, ...] = UNCHECKED) -> list[tuple[str, str, str]]:
+    """(where, confidence, citation) of every entry of a pack and of its energy factor sets whose confidence
+    is one of ``levels``: the values a regulatory professional should check against the text first."""
+    from labelcalc.formulation.energy import load_factor_set
+
+    out: list[tuple[str, str, str]] = []
+
+    def walk(node, where: str) -> None:
+        if isinstance(node, dict):
+            if node.get("confidence") in levels:
+                out.append((where, str(node["confidence"]), str(node.get("citation") or "")))
+            for k, v in node.items():
+                walk(v, f"{where}.{k}" if where else str(k))
+        elif isinstance(node, list):
+            for i, v in enumerate(node):
+                name = _entry_name(v) if isinstance(v, dict) else None
+                walk(v, f"{where}[{name or i}]")
+
+    walk(pack.model_dump(), "")
+    sets = dict.fromkeys([pack.panel.energy_factor_set, *pack.panel.energy_factor_sets_allowed])
+    for ident in sets:
+        walk(load_factor_set(ident, pack.energy_root).model_dump(), f"energy factor set {ident}")
+    return out
