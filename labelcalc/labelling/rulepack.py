@@ -197,6 +197,35 @@ class NotComputed(Cited):
     why: str = Field(min_length=10)
 
 
+class ServingLinesType(Cited):
+    """Type of the servings and serving size lines where the law sets it (sizes in pt).
+
+    Left out of a pack, the lines keep the drawing's own proportions: the servings line at the body size, the
+    serving size line 1.15 x the body (bold) for ``label_and_amount`` or 1.1 x (regular) for ``per_line``.
+    """
+
+    servings_pt: Number | None = Field(
+        None, gt=5, le=24, description="the servings line ('N servings per container'); null: the body size"
+    )
+    serving_pt: Number | None = Field(None, gt=5, le=24, description="the serving size line; null: the style's size")
+    serving_min_pt: Number | None = Field(
+        None,
+        gt=5,
+        le=24,
+        description="smallest size the serving size line may be set at when it does not fit the panel's widest "
+        "width; below it the size moves to a line of its own, right-aligned. null: the drawing's own floor (5 pt)",
+    )
+    serving_bold: bool | None = Field(
+        None, description="serving size line in bold; null: bold for label_and_amount, regular for per_line"
+    )
+
+    @model_validator(mode="after")
+    def _min_below_size(self):
+        if self.serving_min_pt is not None and self.serving_pt is not None and self.serving_min_pt > self.serving_pt:
+            raise ValueError(f"serving_min_pt ({self.serving_min_pt}) is larger than serving_pt ({self.serving_pt})")
+        return self
+
+
 class PanelLayout(Strict):
     """How the panel is drawn, where the law prescribes a form (sizes in mm and pt).
 
@@ -239,6 +268,9 @@ class PanelLayout(Strict):
         "formula gives it in that language too (serving.household_names)",
     )
     serving_rule_pt: Number | None = Field(None, description="rule under the serving lines (default 4 boxed, 1 table)")
+    serving_type: ServingLinesType | None = Field(
+        None, description="type sizes (and bold) of the servings and serving size lines where the law sets them"
+    )
     serving_note: str | None = Field(
         None, description="a review note printed under the panel about the serving declaration"
     )

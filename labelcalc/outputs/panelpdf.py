@@ -179,6 +179,9 @@ class PanelDrawing(Flowable):
             if self.lay.amount_after_label and not [c for k, c in self.cols if k == "value"] and cells:
                 w += pdfmetrics.stringWidth(" " + cells[0], FONT, size)
             need_label = max(need_label, w)
+        widest = lay.max_width_mm * mm - 2 * pad
+        for line_w in self._serving_widths():  # where the law sets the serving lines' size, the panel grows first
+            need_label = max(need_label, min(line_w, widest) - gap - sum(widths))
         shown_pct = any(k == "pct" for k, _ in self.cols)
         for fn in self.d.pack.panel.footnotes:  # a short footnote line should not wrap either
             if fn.when == "always" or shown_pct:
@@ -204,6 +207,51 @@ class PanelDrawing(Flowable):
     def draw(self):
         ops, H, W = self._laid_out if hasattr(self, "_laid_out") else self._layout()
         self._paint(self.canv, ops, H, W)
+
+    def serving_type(self) -> tuple[float, float, float, bool]:
+        """Size of the servings line, size of the serving size line, the smallest size the serving size line may
+        shrink to when it does not fit, and whether it is bold: the pack's ``panel.layout.serving_type`` where it
+        sets them (US: 21 CFR 101.9(d)(3)(i)-(ii)), otherwise the drawing's own proportions of the body size."""
+        lay, size = self.lay, self.size
+        t = lay.serving_type
+        per_line = lay.serving_style == "per_line"
+        servings = float(t.servings_pt) if t and t.servings_pt else size
+        serving = float(t.serving_pt) if t and t.serving_pt else size * (1.1 if per_line else 1.15)
+        floor = float(t.serving_min_pt) if t and t.serving_min_pt else 5.0
+        bold = t.serving_bold if t and t.serving_bold is not None else not per_line
+        return servings, serving, floor, bold
+
+    def servings_line(self) -> str | None:
+        """The servings line as printed ("5 servings per container"), or None where the panel has none."""
+        d, lay = self.d, self.lay
+        if not (lay.serving_lines_on_top or lay.style == "boxed"):
+            return None
+        n = d.servings_text
+        stext = lay.servings_text_one if (n == "1" and lay.servings_text_one) else lay.servings_text
+        return stext.format(n=n) if n and stext else None
+
+    def _serving_widths(self) -> list[float]:
+        """Widths (points) the servings and serving size lines need on one line each, at the sizes the pack sets;
+        none where the pack sets no size (the lines then shrink to the panel as drawn)."""
+        t = self.lay.serving_type
+        if t is None or not (self.lay.serving_lines_on_top or self.lay.style == "boxed"):
+            return []
+        servings_pt, serving_pt, _, bold = self.serving_type()
+        out = []
+        line = self.servings_line()
+        if line and t.servings_pt:
+            out.append(pdfmetrics.stringWidth(line, FONT, servings_pt))
+        if self.d.serving_g and t.serving_pt:
+            first, second, _ = self.serving_lines()
+            font = BOLD if bold else FONT
+            if self.lay.serving_style == "per_line":
+                texts = [f"{self.lay.serving_text} {first}"]
+                if self.lay.serving_text_second:
+                    texts.append(f"{self.lay.serving_text_second} {second}")
+            else:
+                texts = [self.lay.serving_text + "   " + first]  # a little more than the least gap drawn
+            out += [pdfmetrics.stringWidth(x, font, serving_pt) for x in texts]
+        return out
 
     def serving_lines(self) -> tuple[str, str, bool]:
         """The serving declaration in the first and the second language, and whether the household measure
@@ -243,9 +291,9 @@ class PanelDrawing(Flowable):
             ops.append(("rule", y, weight, x_end))
             y += weight / 2 + next_size * 0.95
 
-        def fit(s, font, sz, width):
-            while sz > 5 and pdfmetrics.stringWidth(s, font, sz) > width:
-                sz -= 0.25
+        def fit(s, font, sz, width, floor=5.0):
+            while sz > floor and pdfmetrics.stringWidth(s, font, sz) > width:
+                sz = max(floor, sz - 0.25)
             return sz
 
         title = d.pack.panel.title
@@ -258,29 +306,42 @@ class PanelDrawing(Flowable):
         if lay.title_second:
             y += tsize * 1.0
             text(pad, y, lay.title_second, BOLD, tsize)
+        servings_pt, serving_pt, serving_floor, serving_bold = self.serving_type()
         ssize = size * 1.15
+        on_top = lay.serving_lines_on_top or lay.style == "boxed"
+        servings = self.servings_line()
+        # the first line under the title: the rule above it keeps clear of its ascenders
+        first_pt = servings_pt if servings else serving_pt if (on_top and d.serving_g and lay.serving_type) else size
         if lay.style == "boxed":
-            rule(0.6, size, below=tsize * 0.7)
+            rule(0.6, first_pt, below=tsize * 0.7)
         else:
-            y += size * 1.4
-        if lay.serving_lines_on_top or lay.style == "boxed":
-            n = d.servings_text
-            stext = lay.servings_text_one if (n == "1" and lay.servings_text_one) else lay.servings_text
-            if n and stext:
-                text(pad, y, stext.format(n=n))
-                y += lh * 1.1
+            y += size * 1.4 + max(0.0, first_pt - size)
+        if on_top:
+            if servings:
+                for k, part in enumerate(wrap_lines(servings, FONT, servings_pt, W - 2 * pad)):
+                    y += servings_pt * 1.2 if k else 0
+                    text(pad, y, part, FONT, servings_pt)
+                # at least a point between this line's descenders and the next line's ascenders
+                y += max(lh * 1.1, servings_pt * 0.3 + 1 + serving_pt * 0.95)
             if d.serving_g:
                 first, second, _ = self.serving_lines()
+                sfont = BOLD if serving_bold else FONT
                 if lay.serving_style == "per_line":
-                    text(pad, y, f"{lay.serving_text} {first}", FONT, size * 1.1)
+                    text(pad, y, f"{lay.serving_text} {first}", sfont, serving_pt)
                     if lay.serving_text_second:
-                        y += size * 1.1 * 1.2
-                        text(pad, y, f"{lay.serving_text_second} {second}", FONT, size * 1.1)
-                    ssize = size * 1.1
+                        y += serving_pt * 1.2
+                        text(pad, y, f"{lay.serving_text_second} {second}", sfont, serving_pt)
+                    ssize = serving_pt
                 else:
-                    ssize = fit(lay.serving_text + "  " + first, BOLD, ssize, W - 2 * pad)
-                    text(pad, y, lay.serving_text, BOLD, ssize)
-                    text(W - pad, y, first, BOLD, ssize, "right")
+                    whole = lay.serving_text + "  " + first
+                    ssize = fit(whole, sfont, serving_pt, W - 2 * pad, serving_floor)
+                    text(pad, y, lay.serving_text, sfont, ssize)
+                    if pdfmetrics.stringWidth(whole, sfont, ssize) <= W - 2 * pad:
+                        text(W - pad, y, first, sfont, ssize, "right")
+                    else:  # too long even at the smallest size allowed: the size on its own line(s), right-aligned
+                        for part in wrap_lines(first, sfont, ssize, W - 2 * pad):
+                            y += ssize * 1.2
+                            text(W - pad, y, part, sfont, ssize, "right")
             rule(lay.serving_rule_pt or (4 if lay.style == "boxed" else 1), size, below=ssize)
         if lay.header_note and not d.dual_column:  # dual columns are headed "Per serving" / "Per container"
             text(pad, y, lay.header_note, BOLD, size * 0.95)

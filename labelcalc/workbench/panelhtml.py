@@ -2,7 +2,8 @@
 
 This reads :class:`~labelcalc.labelling.model.Declaration` exactly as the PDF renderer does: the shown rows in
 the pack's order, the columns the serving rules chose, the percent column(s) the pack names, the layout's style
-(boxed facts panel or ruled table), width, type sizes, heavy rules, header note, serving lines and footnotes.
+(boxed facts panel or ruled table), width, type sizes (the serving lines' where the pack sets them), heavy rules,
+header note, serving lines and footnotes.
 It draws nothing itself: the ``panel.html`` template turns the data into markup, sized in mm and pt so the
 panel on screen has the proportions of the printed draft.  Each figure carries what the trace view needs to
 find it again (market, scenario, nutrient, basis).
@@ -52,6 +53,10 @@ class PanelView:
     citation: str | None
     draft_notice: str
     notes: list[str] = field(default_factory=list)
+    # type of the serving lines where the pack sets it (layout.serving_type); None: the stylesheet's proportions
+    servings_pt: float | None = None
+    serving_pt: float | None = None
+    serving_bold: bool | None = None
 
 
 def panel_view(d: Declaration) -> PanelView:
@@ -101,6 +106,7 @@ def panel_view(d: Declaration) -> PanelView:
             headers = []
         headers += [pack.panel.percent_label or "%"] * len(pct_cols)
     servings_line = serving_line = None
+    st = lay.serving_type
     if lay.serving_lines_on_top or lay.style == "boxed":
         wording = lay.servings_text_one if (d.servings_text == "1" and lay.servings_text_one) else lay.servings_text
         if d.servings_text and wording:  # no servings line where the pack has none (Canada)
@@ -125,4 +131,7 @@ def panel_view(d: Declaration) -> PanelView:
         footnotes=[fn.text for fn in pack.panel.footnotes if fn.when == "always" or pct_cols],
         citation=lay.citation,
         draft_notice=pack.pack.draft_notice,
+        servings_pt=st.servings_pt if st else None,
+        serving_pt=st.serving_pt if st else None,
+        serving_bold=st.serving_bold if st else None,
     )
