@@ -2,7 +2,7 @@
 
 Sources named beside the checks: FDR B.01.012(2) (labels in both official languages) and the
 Directory of Nutrition Facts Table Formats (Health Canada, 2016-12-14; bilingual standard format,
-figure 3.1); 21 CFR 101.9(d)(3)(ii), (d)(6) and (d)(8)(iii) (81 FR 33742, 2016-05-27).
+figure 3.1); 21 CFR 101.9(d)(3)(i), (d)(6) and (d)(8)(iii) (81 FR 33742, 2016-05-27).
 """
 
 from __future__ import annotations
@@ -87,7 +87,7 @@ def test_us_added_sugars_line_keeps_its_words(pdfs):
 
 def test_us_single_serving_wording_and_dv_heading(pdfs):
     flat = re.sub(r"\s+", " ", _first(pdfs / "hl_oat_bar.us.pdf"))
-    assert "1 serving per container" in flat  # 101.9(d)(3)(ii): singular for one serving
+    assert "1 serving per container" in flat  # our wording: 101.9(d)(3)(i) gives only "____ servings per container"
     assert "1 servings" not in flat
     assert "% Daily Value*" in flat  # (d)(6): on one line
 
