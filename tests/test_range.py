@@ -266,3 +266,15 @@ def test_identical_input_gives_a_byte_identical_workbook(tmp_path):
             app, ["range", str(src), "--market", "eu,us", "--out", str(tmp_path / out), "-q", "--no-register"]
         )
     assert (tmp_path / "a" / "summary.xlsx").read_bytes() == (tmp_path / "b" / "summary.xlsx").read_bytes()
+
+
+def test_summary_fills_an_amount_row_as_the_panel_does(tmp_path):
+    """A US row that carries its amount keeps the words of a "less than" form in the summary, as on the panel
+    ('Includes less than 1g Added Sugars', 21 CFR 101.9(c)(6)(iii) and (d)(7)(iii) as the pack reads them)."""
+    src = tmp_path / "src"
+    shutil.copytree(ROOT / "demo_products", src, ignore=shutil.ignore_patterns("*.csv", "*.xlsx"))
+    res = run_range(src, src / "ingredients", ["us"])
+    texts = [r["added_sugars"] for r in res.rows if r.get("added_sugars")]
+    assert texts and all(t.startswith("Includes ") and t.endswith(" Added Sugars") for t in texts)
+    assert all("lessthan" not in t for t in texts)
+    assert any("less than 1g" in t for t in texts)

@@ -12,6 +12,7 @@ import numpy as np
 from labelcalc.labelling.claims_table import VERDICT_ELIGIBLE
 from labelcalc.labelling.engine import LabelEngine
 from labelcalc.labelling.record import front_of_pack
+from labelcalc.labelling.rounding import fill_amount
 
 
 def _f(v: float) -> float | None:
@@ -88,7 +89,7 @@ def label_summary(
         if not shown[i]:
             continue
         text = texts[main][i]
-        row[n] = label.replace("{amount}", text.replace(" ", "")) if label is not None else text
+        row[n] = fill_amount(label, text) if label is not None else text
         pct = pcts.get(pb or main)
         if pct and pct[i]:
             row[pkey] = pct[i]
