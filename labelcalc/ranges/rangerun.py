@@ -358,8 +358,11 @@ def _worker(items: list, part: Path | None) -> RangeResult:
     )
 
 
-def _classify_share(files: list[Path], spool: Path | None) -> list[CatalogueEntry]:
-    return classify_to_spool(files, spool) if spool is not None else [classify(f) for f in files]
+def _classify_share(files: list[Path], spool: Path | None) -> list[tuple]:
+    """A share's entries as plain tuples without their paths (the main process has those): less to send back
+    and to hold while a large range's entries arrive."""
+    entries = classify_to_spool(files, spool) if spool is not None else [classify(f) for f in files]
+    return [(e.kind, e.id, e.problems, e.spooled) for e in entries]
 
 
 def _classify_shared(files: list[Path], jobs: int, spool_dir: Path | None) -> list[CatalogueEntry]:
@@ -369,7 +372,10 @@ def _classify_shared(files: list[Path], jobs: int, spool_dir: Path | None) -> li
     shares = [files[i : i + n] for i in range(0, len(files), n)]
     spools = [spool_dir / f"spool-{k:05d}.pickle" if spool_dir is not None else None for k in range(len(shares))]
     with ProcessPoolExecutor(max_workers=jobs, mp_context=mp_context()) as ex:
-        return [e for share in ex.map(_classify_share, shares, spools) for e in share]
+        out = []
+        for share, got in zip(shares, ex.map(_classify_share, shares, spools)):
+            out += [CatalogueEntry(f, *t) for f, t in zip(share, got)]
+        return out
 
 
 def _share_key(it) -> str:
