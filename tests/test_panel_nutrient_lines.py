@@ -7,7 +7,9 @@ rule "centered between the lines of text"; (d)(1)(iv) highlighted are the headin
 are not indented "and the percentage amounts required by paragraph (d)(7)(ii)" (percent of the DRV), "No other
 information shall be highlighted".  Space between two lines is measured between their bodies: the font's ascent
 above and descent below the baseline, which together make the type size (8 point lines 8 + 4 = 12 pt apart, the
-usual measure of leading in typesetting: common practice).  Products are the fictional demo products (invented).
+usual measure of leading in typesetting: common practice).  The PDFs are read back with pypdfium2, the geometry is
+checked on the drawing plan; the workbench's HTML panel is checked against the same pack data and the PDF's drawing.
+Products are the fictional demo products (invented data).
 """
 
 from __future__ import annotations
@@ -15,11 +17,14 @@ from __future__ import annotations
 import re
 
 import pytest
+from reportlab.lib.units import mm
 from reportlab.pdfbase import pdfmetrics
 
 from labelcalc.labelling.rulepack import get_packs, load_packs
 from labelcalc.outputs.panelpdf import line_body
 from labelcalc.outputs.panelrun import panels_for
+from labelcalc.workbench.panelhtml import panel_view
+from labelcalc.workbench.server import render
 from tests.conftest import DEMO
 from tests.test_panel_serving_type import _declaration, _plan, _printed
 
@@ -178,3 +183,80 @@ def test_percent_bold_for_an_unknown_row_is_refused(tmp_path):
     with pytest.raises((RuleError, InputError)) as e:
         load_pack_file(bad)
     assert "percent_bold_for" in str(e.value) and "total_fats" in str(e.value)
+
+
+# ---- the workbench's HTML panel: the same layout data as the PDF ------------------------------------------------
+
+
+def _html_rows(html: str) -> dict[str, str]:
+    """The markup of each nutrient row of a rendered panel, by nutrient key."""
+    return {
+        m.group(1): m.group(0) for m in re.finditer(r'<tr class="[^"]*" data-nutrient="([^"]+)">.*?</tr>', html, re.S)
+    }
+
+
+def test_html_us_calories_line_at_the_pdf_size(tmp_path):
+    # 101.9(d)(1)(iii) (eCFR 2026-08-27): "Calories" no smaller than 16 point, its amount no smaller than 22 point;
+    # the HTML sets the energy row at the PDF's size (body x energy_size_factor), not the stylesheet's 1.9 em
+    d = _declaration("us", tmp_path)
+    lay = d.pack.panel.layout
+    view = panel_view(d)
+    assert view.energy_pt == pytest.approx(lay.body_size_pt * lay.energy_size_factor) and view.energy_pt >= 22
+    _, texts, *_ = _plan(d)
+    assert {t[4] for t in texts if t[2] == "Calories"} == {view.energy_pt}
+    row = _html_rows(render("panel.html", p=view))["energy_kcal"]
+    assert re.search(rf"font-size: {view.energy_pt:g}pt", row) and "Calories" in row
+
+
+def test_html_us_percent_heading_below_calories_as_in_the_pdf(tmp_path):
+    # 101.9(d)(6) (eCFR 2026-08-27): "% Daily Value*" separated from the calories information by a bar, the
+    # nutrient list (d)(7) to the left of and below it: the heading follows the Calories row in both outputs
+    d = _declaration("us", tmp_path)
+    html = render("panel.html", p=panel_view(d))
+    assert "<thead>" not in html
+    at = html.index('class="p-pct-heading"')
+    assert html.index('data-nutrient="energy_kcal"') < at < html.index('data-nutrient="total_fat"')
+    assert "% Daily Value*" in html[at : html.index('data-nutrient="total_fat"')]
+    _, texts, *_ = _plan(d)
+    y = {t[2]: t[1] for t in texts}
+    assert y["Calories"] < y[d.pack.panel.percent_label] < y["Total Fat"]
+
+
+def test_html_us_bold_percentages_and_leading_from_the_pack(tmp_path):
+    # 101.9(d)(1)(iv) only the (d)(7)(ii) percentages bold; (d)(1)(ii)(C) four points leading for the (d)(7) and
+    # (d)(8) lines (eCFR 2026-08-27): half the leading above and half below each nutrient line's cells
+    d = _declaration("us", tmp_path, "hl_kettle_sea_salt_lite")
+    lead = d.pack.panel.layout.nutrient_lines.leading_pt
+    rows = _html_rows(render("panel.html", p=panel_view(d)))
+    pct_rows = 0
+    for r in d.shown_rows:
+        html = rows[r.nutrient]
+        if r.nutrient == "energy_kcal":
+            assert "padding-top" not in html
+            continue
+        assert html.count(f"padding-top: {lead / 2:g}pt; padding-bottom: {lead / 2:g}pt") >= 1, html
+        pct = re.search(r'<td class="p-cell p-pct"[^>]*><button type="button" class="fig( p-bold)?"', html)
+        if r.percent.get("per_serving"):
+            assert pct and bool(pct.group(1)) == (r.nutrient in DRV_ROWS), (r.nutrient, html)
+            pct_rows += 1
+    assert pct_rows >= 10
+
+
+@pytest.mark.parametrize("market", sorted(load_packs()))
+def test_html_panel_prints_the_pdf_texts_and_width(tmp_path, market):
+    """Labels, serving lines (size and weight) and width of the HTML panel are those of the PDF drawing (Canada:
+    "Per ..." and "pour ..." on lines of their own, regular, 1.1 x the body, as the PDF draws them)."""
+    d = _declaration(market, tmp_path)
+    view = panel_view(d)
+    drawing, texts, _, _, width, _ = _plan(d)
+    assert [r.label for r in view.rows] == [label for _, label, _, _ in drawing.lines]
+    assert view.width_mm == pytest.approx(width / mm, abs=0.01)
+    html = render("panel.html", p=view)
+    for line in view.serving_per_line:
+        [op] = [t for t in texts if t[2] == line]
+        assert op[4] == view.serving_pt and op[3].endswith("Bold") == view.serving_bold
+        weight = 700 if view.serving_bold else 400
+        assert f'style="font-size: {view.serving_pt}pt; font-weight: {weight};">{line}</div>' in html
+    if market == "ca":
+        assert view.serving_per_line and view.serving_line is None and not view.serving_bold
+        assert 'class="p-line p-serving"' not in html
