@@ -9,6 +9,7 @@ import shutil
 from pathlib import Path
 
 import pytest
+from reportlab.lib.units import mm
 from starlette.testclient import TestClient
 from typer.testing import CliRunner
 
@@ -16,6 +17,7 @@ from labelcalc.cli import app as cli_app
 from labelcalc.formulation.composition import compose
 from labelcalc.labelling.assess import assess_against
 from labelcalc.labelling.rulepack import get_packs, load_packs
+from labelcalc.outputs.panelpdf import PanelDrawing, _fonts
 from labelcalc.workbench.editing import comment_count
 from labelcalc.workbench.panelhtml import panel_view
 from labelcalc.workbench.server import create_app, is_loopback
@@ -78,7 +80,11 @@ def test_html_panel_reads_the_declarations_shown_rows(market, demo_lib):
     d = assess_against(compose(f, demo_lib)[0], pack, None).declaration
     view = panel_view(d)
     assert [r.nutrient for r in view.rows] == [r.nutrient for r in d.shown_rows]
-    assert view.title == pack.panel.title and view.width_mm == pack.panel.layout.width_mm
+    # the width the PDF draws: at least the pack's width_mm, grown to fit the rows (no wider than max_width_mm)
+    _fonts()
+    drawn = PanelDrawing(d)._widths()[2] / mm
+    assert view.title == pack.panel.title and view.width_mm == pytest.approx(drawn, abs=0.01)
+    assert pack.panel.layout.width_mm <= view.width_mm <= pack.panel.layout.max_width_mm + 0.01
     figures = {c.text for r in view.rows for c in r.cells + ([r.after_label] if r.after_label else []) if c.text}
     printed = {r.text(b).replace(" ", "") for r in d.shown_rows for b in d.columns if not r.amount_in_label}
     assert {t.replace(" ", "") for t in figures if not t.endswith("%")} <= printed | {

@@ -226,6 +226,27 @@ class ServingLinesType(Cited):
         return self
 
 
+class NutrientLinesType(Cited):
+    """Spacing and emphasis of the nutrient lines (the rows under the large energy row) where the law sets them.
+
+    Left out of a pack, the rows keep the drawing's own spacing and every percentage is bold.
+    """
+
+    leading_pt: Number | None = Field(
+        None,
+        ge=0,
+        le=12,
+        description="least space (pt) between a nutrient line and the line above or below it: the bodies of the "
+        "two lines (the type size, split above and below the baseline in the font's proportions) at least this "
+        "far apart, the rule between them centred in the clear space; null: the drawing's own spacing",
+    )
+    percent_bold_for: list[str] | None = Field(
+        None,
+        description="nutrient keys whose percentage is printed bold; every other percentage in regular type. "
+        "null: every percentage bold",
+    )
+
+
 class PanelLayout(Strict):
     """How the panel is drawn, where the law prescribes a form (sizes in mm and pt).
 
@@ -273,6 +294,9 @@ class PanelLayout(Strict):
     )
     serving_note: str | None = Field(
         None, description="a review note printed under the panel about the serving declaration"
+    )
+    nutrient_lines: NutrientLinesType | None = Field(
+        None, description="spacing of the nutrient lines and which percentages are bold, where the law sets them"
     )
     column_headers: dict[str, str] = Field(default_factory=dict, description="basis -> header text")
     header_note: str | None = Field(None, description="a line under the title, e.g. 'Amount per serving'")
@@ -399,6 +423,11 @@ class RulePack(Strict):
                 for k in aud.high_in.values():
                     if k not in self.reference_values:
                         errs.append(f"front_of_pack {fop.id} uses reference value '{k}', which is not defined")
+        lines = self.panel.layout.nutrient_lines
+        row_keys = {r.nutrient for r in self.rows}
+        for k in (lines.percent_bold_for or []) if lines else []:
+            if k not in row_keys:
+                errs.append(f"panel.layout.nutrient_lines.percent_bold_for '{k}' is not a row's nutrient")
         s = self.servings
         if s.servings_rounding and s.servings_rounding not in self.rounding:
             errs.append(f"servings.servings_rounding '{s.servings_rounding}' is not defined under 'rounding'")

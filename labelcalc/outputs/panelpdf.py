@@ -82,6 +82,13 @@ def _lines_with_descent(size: float) -> float:
     return size * 0.3
 
 
+def line_body(size: float) -> tuple[float, float]:
+    """How far the body of a line of ``size``-point type reaches above and below its baseline (the font's
+    ascent and descent, together the type size): the space between two lines is measured between bodies."""
+    ascent, descent = pdfmetrics.getAscentDescent(FONT, size)
+    return ascent, -descent
+
+
 class PanelDrawing(Flowable):
     """The nutrition panel of one declaration, drawn from the pack's rows and ``panel.layout``.
 
@@ -284,12 +291,24 @@ class PanelDrawing(Flowable):
         def text(x, yy, s, font=FONT, sz=size, align="left"):
             ops.append(("text", x, yy, s, font, sz, align))
 
-        def rule(weight, next_size, x_end=None, below=size):
-            """A rule under the text just drawn at ``y``, clear of its descenders and of the next line."""
+        lines = lay.nutrient_lines
+        lead = float(lines.leading_pt) if lines and lines.leading_pt is not None else None
+        bold_pct = set(lines.percent_bold_for) if lines and lines.percent_bold_for is not None else None
+
+        def rule(weight, next_size, x_end=None, below=size, leading=None):
+            """A rule under the text just drawn at ``y``, clear of its descenders and of the next line.  With
+            ``leading``, the next line's body starts at least that far below this line's body and the rule is
+            centred in the space between them (US: 21 CFR 101.9(d)(1)(ii)(C) and (v))."""
             nonlocal y
-            y += _lines_with_descent(below) + weight / 2
-            ops.append(("rule", y, weight, x_end))
-            y += weight / 2 + next_size * 0.95
+            if leading is None:
+                y += _lines_with_descent(below) + weight / 2
+                ops.append(("rule", y, weight, x_end))
+                y += weight / 2 + next_size * 0.95
+                return
+            under, above = line_body(below)[1], line_body(next_size)[0]
+            pitch = max(_lines_with_descent(below) + weight + next_size * 0.95, under + leading + above)
+            ops.append(("rule", y + (under + pitch - above) / 2, weight, x_end))
+            y += pitch
 
         def fit(s, font, sz, width, floor=5.0):
             while sz > floor and pdfmetrics.stringWidth(s, font, sz) > width:
@@ -367,21 +386,23 @@ class PanelDrawing(Flowable):
             sz = size * (lay.energy_size_factor if big else 1.0)
             font = BOLD if (r.bold or big) else FONT
             indent = pad + r.indent * 3 * mm
+            pct_font = BOLD if bold_pct is None or r.nutrient in bold_pct else FONT
             if r.percent_only:
                 # the percentage of a group (Canada's saturated + trans) sits between the group's two lines
                 mid = (baselines[-1] + baselines[-2]) / 2 if len(baselines) > 1 else y
                 for (kind, b), xx in zip(self.cols, xr):
                     if kind == "pct" and pct.get(b):
-                        text(xx - 1, mid + size * 0.35, pct[b], BOLD, size, "right")
+                        text(xx - 1, mid + size * 0.35, pct[b], pct_font, size, "right")
                 continue
             if big:  # room for the large row's ascent, and for a heading stacked above its right end
                 y += (sz - size) * 0.85 + (size * 1.1 if lay.percent_header == "energy_line" else 0)
             value_cols = [k for k, _ in self.cols if k == "value"]
             avail = label_w - r.indent * 3 * mm
             lab_lines = wrap_lines(label, font, sz, avail)
+            step = sz * 1.2 if lead is None or big else max(sz * 1.2, sz + lead)  # a nutrient line's own lines too
             for k, part in enumerate(lab_lines):
-                text(indent, y + k * sz * 1.2, part, font, sz)
-            y += (len(lab_lines) - 1) * sz * 1.2
+                text(indent, y + k * step, part, font, sz)
+            y += (len(lab_lines) - 1) * step
             baselines.append(y)
             after_x = indent + pdfmetrics.stringWidth(lab_lines[-1], font, sz) + sz * 0.3
             if not value_cols and cells:
@@ -398,7 +419,7 @@ class PanelDrawing(Flowable):
                         text(xx - 1, y, cells[ci], BOLD if big else FONT, sz, "right")
                     ci += 1
                 elif pct.get(b):
-                    text(xx - 1, y, pct[b], BOLD, size, "right")
+                    text(xx - 1, y, pct[b], pct_font, size, "right")
             if big and lay.percent_header == "energy_line" and not pct_heading_done:
                 text(W - pad, y - size * 1.1, d.pack.panel.percent_label or "", BOLD, size * 0.85, "right")
                 if lay.percent_label_second:
@@ -406,20 +427,29 @@ class PanelDrawing(Flowable):
                 pct_heading_done = True
             last = i == len(rows) - 1 or all(x[0].percent_only for x in rows[i + 1 :])
             nxt = size * (1.0 if not last else 0.8)
+            heading_next = (
+                big
+                and lay.percent_header == "below_energy"
+                and not d.dual_column
+                and any(k == "pct" for k, _ in self.cols)
+            )
+            # the leading of a nutrient line: below every nutrient line, and below the energy row when a nutrient
+            # line follows it directly (no percentage heading between them)
+            row_lead = None if heading_next else lead
             if last and lay.rule_before_footnotes_pt:
-                rule(lay.rule_before_footnotes_pt, nxt, below=sz)
+                rule(lay.rule_before_footnotes_pt, nxt, below=sz, leading=row_lead)
             elif r.nutrient in lay.heavy_rule_after or big:
                 x_end = after_x + 1.5 * mm if (big and lay.energy_rule_partial) else None
-                rule(lay.heavy_rule_pt, nxt, x_end, below=sz)
+                rule(lay.heavy_rule_pt, nxt, x_end, below=sz, leading=row_lead)
             elif r.nutrient in lay.no_rule_after and not last:
-                y += lh
+                y += lh if row_lead is None else max(lh, size + row_lead)
             else:
-                rule(0.35, nxt, below=sz)
+                rule(0.35, nxt, below=sz, leading=row_lead)
             if big:
                 first_energy = False
-                if lay.percent_header == "below_energy" and not d.dual_column and any(k == "pct" for k, _ in self.cols):
+                if heading_next:
                     text(W - pad, y, d.pack.panel.percent_label or "%", BOLD, size * 0.95, "right")
-                    rule(0.35, size, below=size)
+                    rule(0.35, size, below=size if lead is None else size * 0.95, leading=lead)
                     pct_heading_done = True
         shown_pct = any(k == "pct" for k, _ in self.cols)
         for fn in d.pack.panel.footnotes:

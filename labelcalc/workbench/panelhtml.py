@@ -1,9 +1,11 @@
 """A market's nutrition panel as HTML data, from the same declaration rows and ``panel.layout`` as the PDF.
 
-This reads :class:`~labelcalc.labelling.model.Declaration` exactly as the PDF renderer does: the shown rows in
-the pack's order, the columns the serving rules chose, the percent column(s) the pack names, the layout's style
-(boxed facts panel or ruled table), width, type sizes (the serving lines' where the pack sets them), heavy rules,
-header note, serving lines and footnotes.
+This reads :class:`~labelcalc.labelling.model.Declaration` through the PDF renderer's own
+:class:`~labelcalc.outputs.panelpdf.PanelDrawing` (one implementation of the printed texts): the shown rows in the
+pack's order with their printed labels, amounts and percentages, the columns (each value column followed by its
+percentage column), the column headings, the serving lines with their type, and the layout's style, width, title
+and energy-row sizes, where the percentage heading goes, rule weights, the nutrient lines' leading and which
+percentages are bold, header note and footnotes.
 It draws nothing itself: the ``panel.html`` template turns the data into markup, sized in mm and pt so the
 panel on screen has the proportions of the printed draft.  Each figure carries what the trace view needs to
 find it again (market, scenario, nutrient, basis).
@@ -13,7 +15,10 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-from labelcalc.labelling.model import BASIS_LABEL, Declaration
+from reportlab.lib.units import mm
+
+from labelcalc.labelling.model import Declaration
+from labelcalc.outputs.panelpdf import PanelDrawing, _fonts
 
 
 @dataclass
@@ -21,6 +26,7 @@ class PanelCell:
     text: str
     basis: str
     kind: str = "amount"  # or "percent"
+    bold: bool = False
 
 
 @dataclass
@@ -33,6 +39,11 @@ class PanelRow:
     heavy_rule: bool
     cells: list[PanelCell]
     after_label: PanelCell | None = None  # the amount printed right after the label (one-column facts panels)
+    rule_pt: float | None = None  # weight of the rule under the row (None: the hairline; 0: no rule)
+    lead_pt: float | None = None  # space above and below a nutrient line where the pack sets it (nutrient_lines)
+    percent_heading_after: bool = False  # the percentage heading follows on its own line (below_energy)
+    energy_line_heading: list[str] = field(default_factory=list)  # headings right-aligned on the energy row
+    full_width: bool = False  # the large energy row of a one-column panel: one cell, its figure or headings at right
 
 
 @dataclass
@@ -53,40 +64,68 @@ class PanelView:
     citation: str | None
     draft_notice: str
     notes: list[str] = field(default_factory=list)
-    # type of the serving lines where the pack sets it (layout.serving_type); None: the stylesheet's proportions
+    # type of the serving lines as the PDF sets them (layout.serving_type, else the drawing's proportions); None
+    # where the panel has no such line
     servings_pt: float | None = None
     serving_pt: float | None = None
     serving_bold: bool | None = None
+    title_second: str | None = None
+    serving_per_line: list[str] = field(default_factory=list)  # per_line style: "Per ..." and its second language
+    energy_pt: float | None = None  # the large energy row's type size (body x energy_size_factor)
+    percent_heading: str | None = None  # the heading of the percentage column on its own line (below_energy)
+    serving_rule_pt: float = 1.0
+    columns: int = 0  # cells right of the label in a row
 
 
 def panel_view(d: Declaration) -> PanelView:
-    """The panel of one declaration (one market, one scenario)."""
+    """The panel of one declaration (one market, one scenario), with the PDF's texts and layout."""
     pack, lay = d.pack, d.pack.panel.layout
-    cols = d.columns
-    pct_basis = pack.panel.percent_basis
-    show_pct = any(r.percent for r in d.shown_rows)
-    pct_cols = [b for b in cols if show_pct and (pct_basis is None or b == pct_basis or d.dual_column)]
-    after = lay.amount_after_label and len(cols) == 1
+    _fonts()
+    drawing = PanelDrawing(d)
+    width_mm = round(drawing._widths()[2] / mm, 2)  # the PDF's width: grown from width_mm to fit the rows
+    cols = drawing.cols
+    has_values = any(k == "value" for k, _ in cols)
+    has_pct = any(k == "pct" for k, _ in cols)
+    lines = lay.nutrient_lines
+    lead = float(lines.leading_pt) if lines and lines.leading_pt is not None else None
+    bold_pct = set(lines.percent_bold_for) if lines and lines.percent_bold_for is not None else None
+    body = lay.body_size_pt
+    heading_below = lay.percent_header == "below_energy" and not d.dual_column and has_pct
     rows: list[PanelRow] = []
     first_energy = True
-    for r in d.shown_rows:
+    for i, (r, label, cells, pct) in enumerate(drawing.lines):
         large = lay.energy_large and first_energy and pack.nutrients[r.nutrient].energy is not None
         if large:
             first_energy = False
-        if r.amount_in_label or r.percent_only:
-            label, amounts = r.label_for(cols[0]), [PanelCell("", b) for b in cols]
+        after: PanelCell | None = None
+        row_cells: list[PanelCell] = []
+        # the amount follows the label (the large row's may sit at the right edge instead)
+        if not has_values and cells and not (large and lay.energy_amount == "right"):
+            after = PanelCell(cells[0], d.columns[0])
+        ci = 0
+        for kind, b in cols:
+            if kind == "value":
+                row_cells.append(PanelCell(cells[ci] if ci < len(cells) else "", b))
+                ci += 1
+            else:
+                bold = bold_pct is None or r.nutrient in bold_pct
+                row_cells.append(PanelCell(pct.get(b) or "", b, "percent", bold))
+        full_width = large and not has_values
+        if full_width:  # as in the PDF: the figure (or the headings) at the panel's right edge, not in a column
+            row_cells = [PanelCell(cells[0], d.columns[0])] if cells and after is None else []
+        last = i == len(drawing.lines) - 1 or all(x[0].percent_only for x in drawing.lines[i + 1 :])
+        heavy = r.nutrient in lay.heavy_rule_after or large
+        if last and lay.rule_before_footnotes_pt:
+            rule: float | None = float(lay.rule_before_footnotes_pt)
+        elif heavy:
+            rule = float(lay.heavy_rule_pt)
+        elif r.nutrient in lay.no_rule_after:
+            rule = 0.0
         else:
-            label, amounts = r.label, [PanelCell(r.text(b), b) for b in cols]
-        pcts = [PanelCell(r.percent.get(b) or "", b, "percent") for b in pct_cols]
-        lead = None
-        if after and not large and amounts and amounts[0].text:
-            txt = amounts[0].text
-            if lay.compact_units and " " in txt:
-                txt = "".join(txt.rsplit(" ", 1))
-            lead = PanelCell(txt, amounts[0].basis)
-            amounts = []
-        elif after and not large:
-            amounts = []
+            rule = None
+        heading = []
+        if large and lay.percent_header == "energy_line" and has_pct:
+            heading = [x for x in [pack.panel.percent_label, lay.percent_label_second] if x]
         rows.append(
             PanelRow(
                 r.nutrient,
@@ -94,44 +133,58 @@ def panel_view(d: Declaration) -> PanelView:
                 r.indent,
                 r.bold or large,
                 large,
-                r.nutrient in lay.heavy_rule_after,
-                amounts + pcts,
-                lead,
+                heavy,
+                row_cells,
+                after,
+                rule_pt=rule,
+                lead_pt=None if large else lead,
+                percent_heading_after=large and heading_below,
+                energy_line_heading=heading,
+                full_width=full_width,
             )
         )
-    headers = []
-    if len(cols) > 1 or pct_cols or lay.style == "table":
-        headers = [lay.column_headers.get(b, pack.panel.column_labels.get(b, BASIS_LABEL[b])) for b in cols]
-        if after:
+    headers: list[str] = []
+    if len(d.columns) > 1 or lay.style == "table" or lay.percent_header == "columns":
+        headers = [drawing._header(k, b) for k, b in cols]
+        if not any(headers):
             headers = []
-        headers += [pack.panel.percent_label or "%"] * len(pct_cols)
-    servings_line = serving_line = None
-    st = lay.serving_type
-    if lay.serving_lines_on_top or lay.style == "boxed":
-        wording = lay.servings_text_one if (d.servings_text == "1" and lay.servings_text_one) else lay.servings_text
-        if d.servings_text and wording:  # no servings line where the pack has none (Canada)
-            servings_line = wording.format(n=d.servings_text)
-        if d.serving_g:
-            s = d.composition.formula.header.serving
-            hh = s.household if s else None
-            serving_line = (lay.serving_text, f"{hh} ({d.serving_g:g}g)" if hh else f"{d.serving_g:g} g")
+    servings_line = drawing.servings_line()
+    serving_line = None
+    per_line: list[str] = []
+    servings_pt, serving_pt, _, serving_bold = drawing.serving_type()
+    on_top = lay.serving_lines_on_top or lay.style == "boxed"
+    if on_top and d.serving_g:
+        first, second, _ = drawing.serving_lines()
+        if lay.serving_style == "per_line":
+            per_line = [f"{lay.serving_text} {first}"]
+            if lay.serving_text_second:
+                per_line.append(f"{lay.serving_text_second} {second}")
+        else:
+            serving_line = (lay.serving_text, first)
+    has_serving = bool(serving_line or per_line)
     return PanelView(
         market=d.market,
         scenario=d.composition.scenario,
         title=pack.panel.title,
         style=lay.style,
-        width_mm=lay.width_mm,
+        width_mm=width_mm,
         title_pt=lay.title_size_pt,
-        body_pt=lay.body_size_pt,
-        servings_line=servings_line,
+        body_pt=body,
+        servings_line=servings_line if on_top else None,
         serving_line=serving_line,
-        header_note=lay.header_note,
+        header_note=lay.header_note if not d.dual_column else None,
         headers=headers,
         rows=rows,
-        footnotes=[fn.text for fn in pack.panel.footnotes if fn.when == "always" or pct_cols],
+        footnotes=[fn.text for fn in pack.panel.footnotes if fn.when == "always" or has_pct],
         citation=lay.citation,
         draft_notice=pack.pack.draft_notice,
-        servings_pt=st.servings_pt if st else None,
-        serving_pt=st.serving_pt if st else None,
-        serving_bold=st.serving_bold if st else None,
+        servings_pt=servings_pt if (on_top and servings_line) else None,
+        serving_pt=serving_pt if has_serving else None,
+        serving_bold=serving_bold if has_serving else None,
+        title_second=lay.title_second,
+        serving_per_line=per_line,
+        energy_pt=body * lay.energy_size_factor if lay.energy_large else None,
+        percent_heading=(pack.panel.percent_label or "%") if heading_below else None,
+        serving_rule_pt=float(lay.serving_rule_pt or (4 if lay.style == "boxed" else 1)),
+        columns=len(cols),
     )
