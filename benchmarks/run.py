@@ -155,6 +155,18 @@ def panel_start(repeats: int) -> dict:
     return _stats(times)
 
 
+def _commit() -> str:
+    """The commit measured (with '+changes' when the working tree differs), or 'unknown' outside git."""
+    try:
+        head = subprocess.run(["git", "rev-parse", "--short", "HEAD"], cwd=ROOT, capture_output=True, text=True)
+        dirty = subprocess.run(["git", "status", "--porcelain", "--", "labelcalc"], cwd=ROOT, capture_output=True)
+    except OSError:
+        return "unknown"
+    if head.returncode:
+        return "unknown"
+    return head.stdout.strip() + ("+changes" if dirty.stdout.strip() else "")
+
+
 def main() -> None:
     quick = "--quick" in sys.argv
     n1, n2, npdf, repeats = (1000, 2000, 60, 3) if quick else (10000, 20000, 300, 3)
@@ -166,6 +178,7 @@ def main() -> None:
         "python": platform.python_version(),
         "markets": MARKETS,
         "repeats": repeats,
+        "commit": _commit(),
     }
     for n in (n1, n2):
         src = generate(n, work / f"range{n}")
