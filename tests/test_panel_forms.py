@@ -132,3 +132,32 @@ def test_every_glyph_used_is_in_the_embedded_font(pdfs):
             missing = {ch for ch in text if not ch.isspace() and ord(ch) not in cmaps["Vera.ttf"]}
             assert not missing, (pdf.name, missing)
             assert "\ufffd" not in text and "\u25a1" not in text
+
+
+@pytest.mark.parametrize(
+    "market, cites, never", [("us", "21 CFR 101.9(g)", None), ("ca", "CFIA", "21 CFR"), ("codex", None, "CFR")]
+)
+def test_the_end_to_print_cites_the_markets_own_compliance_rules(market, cites, never):
+    """A ranged input's 'print this end' reason names the market's own compliance rules (the pack's
+    compliance citation), never another market's; a market without compliance rules gets no citation."""
+    from labelcalc.formulation.composition import compose
+    from labelcalc.intake.formula import load_formula
+    from labelcalc.intake.library import load_library
+    from labelcalc.labelling.assess import assess_against
+    from labelcalc.labelling.rulepack import get_packs
+    from labelcalc.outputs.panelpdf import end_to_print
+
+    demo = Path(__file__).resolve().parent.parent / "demo_products"
+    lib = load_library(demo / "ingredients")
+    comps = compose(load_formula(demo / "hl_kettle_sea_salt.yaml", lib), lib)
+    assert len(comps) == 2  # the demo's oil uptake is a range: two ends
+    (pack,) = get_packs([market])
+    items = [(assess_against(c, pack, None, i), []) for i, c in enumerate(comps)]
+    _, why = end_to_print(items)
+    assert why and why.startswith("PRINT THIS PANEL")
+    if cites:
+        assert cites in why
+    else:
+        assert "(" not in why.split("conservative choice")[1].split(".")[0]
+    if never:
+        assert never not in why

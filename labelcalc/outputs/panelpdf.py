@@ -831,7 +831,8 @@ def end_to_print(items: list[tuple[Assessment, list[Check]]]) -> tuple[int, str 
 
     The end with the higher declared energy is printed: the markets' compliance rules cap declared
     energy, fat, sugars and sodium from above (21 CFR 101.9(g)(5): no more than 120 % of the declared
-    value; the EU tolerance guidance's upper bounds), so the higher end is the conservative draft.
+    value; the EU tolerance guidance's upper bounds), so the higher end is the conservative draft.  The
+    reason printed cites the market's own compliance rules (none where the pack has none).
     The other end stays in the calculation sheet.
     """
     if len(items) == 1:
@@ -844,10 +845,17 @@ def end_to_print(items: list[tuple[Assessment, list[Check]]]) -> tuple[int, str 
     best = max(range(len(items)), key=energy)
     scen = items[best][0].declaration.composition.scenario
     others = ", ".join(a.declaration.composition.scenario for j, (a, _) in enumerate(items) if j != best)
+    pack = items[best][0].declaration.pack
+    why = (
+        f", since this market's compliance rules judge declared figures against analysed ones "
+        f"({' '.join(pack.compliance.citation.split(';')[0].split())})"
+        if pack.compliance
+        else ""
+    )
     return best, (
         f"PRINT THIS PANEL: the {scen} end of the stated ranges, the one with the higher declared energy — the "
-        "conservative choice, since compliance rules cap declared energy and fat from above (e.g. 21 CFR "
-        f"101.9(g)(5)). The {others} end follows on later pages and in the calculation sheet, not for printing."
+        f"conservative choice{why}. The {others} end follows on later pages and in the calculation sheet, not for "
+        "printing."
     )
 
 
