@@ -18,6 +18,7 @@ import math
 import re
 import zipfile
 from collections.abc import Iterable, Sequence
+from concurrent.futures import Future, ThreadPoolExecutor
 from functools import lru_cache
 from pathlib import Path
 from xml.sax.saxutils import escape
@@ -53,18 +54,17 @@ def _text_cell(text: str) -> str:
     return f' t="inlineStr"><is><t{space}>{clean}</t></is></c>'
 
 
-def _cell(ref: str, v) -> str:
-    if v is None or v == "":
-        return ""
+def _tail(v) -> str:
+    """What follows a cell's reference for value ``v`` (not None, not empty)."""
     if isinstance(v, bool):
-        return f'<c r="{ref}" t="b"><v>{int(v)}</v></c>'
+        return f' t="b"><v>{int(v)}</v></c>'
     if isinstance(v, int):
-        return f'<c r="{ref}"><v>{v}</v></c>'
+        return f"><v>{v}</v></c>"
     if isinstance(v, float):
         if not math.isfinite(v):  # no number a spreadsheet can hold: shown as text
-            return f'<c r="{ref}"{_text_cell(str(v))}'
-        return f'<c r="{ref}"><v>{v!r}</v></c>'
-    return f'<c r="{ref}"{_text_cell(str(v))}'
+            return _text_cell(str(v))
+        return f"><v>{v!r}</v></c>"
+    return _text_cell(str(v))
 
 
 class Sheet:
@@ -75,6 +75,9 @@ class Sheet:
         self._letters = [column_letter(j) for j in range(max(ncols, len(widths)))]
         self._row = 0
         self._buf: list[str] = []
+        self._tails: dict = {}  # value -> what follows its cell reference
+        self._writer = ThreadPoolExecutor(max_workers=1)  # one thread: batches reach the zip in order
+        self._pending: Future | None = None
         cols, rows = freeze
         parts = [_HEAD, f'<worksheet xmlns="{_NS_MAIN}" xmlns:r="{_NS_REL}">']
         if size and size[0] and size[1]:  # readers that stream a sheet learn its extent here
@@ -119,19 +122,40 @@ class Sheet:
         if len(values) > len(self._letters):
             self._letter(len(values) - 1)
         letters = self._letters
-        self._buf.append(
-            f'<row r="{n}">' + "".join([_cell(f"{letters[j]}{n}", v) for j, v in enumerate(values)]) + "</row>"
-        )
+        tails = self._tails
+        cells = [f'<row r="{n}">']
+        for j, v in enumerate(values):
+            if v is None or v == "":
+                continue
+            if v is True or v is False:  # equal to 1 and 0 as keys: never looked up
+                tail = _tail(v)
+            else:
+                tail = tails.get(v)
+                if tail is None:
+                    tail = _tail(v)
+                    if len(tails) < 200_000:  # a range repeats its figures; the cache stays bounded
+                        tails[v] = tail
+            cells.append(f'<c r="{letters[j]}{n}"{tail}')
+        cells.append("</row>")
+        self._buf.append("".join(cells))
         if len(self._buf) >= _BATCH:
             self._flush()
 
     def _flush(self) -> None:
+        """Hand a batch of rows to the writing thread: zlib compresses outside the interpreter lock, so the
+        next batch is formatted meanwhile.  At most one batch waits (memory stays bounded)."""
         if self._buf:
-            self._out.write("".join(self._buf).encode("utf-8"))
+            data = "".join(self._buf).encode("utf-8")
             self._buf = []
+            if self._pending is not None:
+                self._pending.result()
+            self._pending = self._writer.submit(self._out.write, data)
 
     def close(self) -> None:
         self._flush()
+        if self._pending is not None:
+            self._pending.result()
+        self._writer.shutdown()
         self._out.write(b"</sheetData></worksheet>")
         self._out.close()
 

@@ -170,22 +170,30 @@ class _MarketSheet:
         self.cols = cols = market_columns(plan, pack)
         self.widths = [w for _, _, w, _ in _LEAD] + [w for *_, w in cols] + [w for *_, w in _TAIL]
         self.headers = [h for _, h, _, _ in _LEAD] + [h for _, h, _, _ in cols] + [h for _, h, _ in _TAIL]
-        self.templates = {r.nutrient: r.label for r in pack.rows if "{amount}" in r.label} if pack else {}
+        templates = {r.nutrient: r.label for r in pack.rows if "{amount}" in r.label} if pack else {}
         self.names: dict[str, str] = {}
         if pack:
             self.names.update({c.id: c.label for c in pack.claims})
             self.names.update({s.id: s.text for s in pack.statements})
 
+        # one converter per nutrient column: the printed value -> the cell's value, each distinct value once
+        self._cells = [(key, kind == "printed", templates.get(key), {}) for key, _, kind, _ in self.cols]
+
     def line(self, r: dict) -> list:
         line = [_round(r.get(k), d) for k, _, _, d in _LEAD]
-        templates = self.templates
-        for key, _, kind, _ in self.cols:
-            v = _amount_of(r.get(key), templates.get(key))
-            if kind == "printed":
-                line.append(None if _number(v)[1] else v)
-            else:
-                line.append(_number(v)[0])
-        line += [_names(k, r.get(k), self.names) for k, _, _ in _TAIL]
+        get = r.get
+        for key, printed, template, seen in self._cells:
+            raw = get(key)
+            try:
+                cell = seen[raw]
+            except KeyError:
+                v = _amount_of(raw, template)
+                cell = seen[raw] = (None if _number(v)[1] else v) if printed else _number(v)[0]
+            except TypeError:  # a value that cannot be a key
+                v = _amount_of(raw, template)
+                cell = (None if _number(v)[1] else v) if printed else _number(v)[0]
+            line.append(cell)
+        line += [_names(k, get(k), self.names) for k, _, _ in _TAIL]
         return line
 
 
