@@ -127,6 +127,7 @@ class Sheet:
         for j, v in enumerate(values):
             if v is None or v == "":
                 continue
+            tail: str | None
             if v is True or v is False:  # equal to 1 and 0 as keys: never looked up
                 tail = _tail(v)
             else:

@@ -177,7 +177,9 @@ class _MarketSheet:
             self.names.update({s.id: s.text for s in pack.statements})
 
         # one converter per nutrient column: the printed value -> the cell's value, each distinct value once
-        self._cells = [(key, kind == "printed", templates.get(key), {}) for key, _, kind, _ in self.cols]
+        self._cells: list[tuple[str, bool, str | None, dict]] = [
+            (key, kind == "printed", templates.get(key), {}) for key, _, kind, _ in self.cols
+        ]
 
     def line(self, r: dict) -> list:
         line = [_round(r.get(k), d) for k, _, _, d in _LEAD]
