@@ -14,3 +14,13 @@ def mp_context() -> multiprocessing.context.BaseContext:
         ctx.set_forkserver_preload(["labelcalc.ranges.rangerun", "labelcalc.ranges.publish"])
         return ctx
     return multiprocessing.get_context("spawn")  # pragma: no cover - platforms without fork
+
+
+def start_early() -> None:
+    """Start the fork server now (it loads labelcalc's modules while the caller goes on), so the first worker
+    process later starts at once; nothing where workers are spawned."""
+    ctx = mp_context()
+    if ctx.get_start_method() == "forkserver":
+        from multiprocessing import forkserver
+
+        forkserver.ensure_running()

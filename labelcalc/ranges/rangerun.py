@@ -24,7 +24,7 @@ from labelcalc.labelling.engine import LabelEngine
 from labelcalc.labelling.rulepack import RulePack, check_formula_against_packs, get_packs
 from labelcalc.ranges.parts import PartInfo, write_part
 from labelcalc.ranges.summary import label_summary
-from labelcalc.workers import mp_context
+from labelcalc.workers import mp_context, start_early
 
 
 @dataclass
@@ -408,6 +408,8 @@ def run_range(
     With ``part_dir`` the run is streamed: each share's summary rows are written to a part file there by
     the process that labelled them, and the result lists the parts (:attr:`RangeResult.parts`, in summary
     order) instead of holding the rows; see :mod:`labelcalc.ranges.parts`."""
+    if jobs > 1 or part_dir is not None:  # workers, or the workbook's own process at the end
+        start_early()
     library = load_library(library_path)
     packs = get_packs(markets, rules)
     if jobs > 1 and source.is_dir():  # the files are parsed to be classified by the workers too
