@@ -39,7 +39,11 @@ app = typer.Typer(
     help="From a food product formula to finished-product composition, energy and label drafts for several markets. "
     "Every output is a draft: verify it against current local regulation with a qualified regulatory professional.",
 )
-rules_app = typer.Typer(no_args_is_help=True, rich_markup_mode=None, help="List, show and check the market rule packs.")
+rules_app = typer.Typer(
+    no_args_is_help=True,
+    rich_markup_mode=None,
+    help="The market rule packs: list, show, check, and the values still to verify against the law.",
+)
 app.add_typer(rules_app, name="rules")
 library_app = typer.Typer(
     no_args_is_help=True,
