@@ -22,6 +22,7 @@ import pickle
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 from pathlib import Path
+from typing import BinaryIO
 
 from labelcalc.errors import InputError, Problem, display_path, real_file_path
 from labelcalc.yamlsafe import load_yaml
@@ -108,18 +109,18 @@ class SpoolReader:
     """Reads spooled parsed data back (one open file per spool); use as a context manager."""
 
     def __init__(self) -> None:
-        self._open: dict[str, object] = {}
+        self._open: dict[str, BinaryIO] = {}
 
     def read(self, ref: Spooled):
         fh = self._open.get(ref.file)
         if fh is None:
             fh = self._open[ref.file] = open(ref.file, "rb")  # noqa: SIM115 - closed in close()
-        fh.seek(ref.offset)  # type: ignore[attr-defined]
-        return pickle.loads(fh.read(ref.size))  # type: ignore[attr-defined]
+        fh.seek(ref.offset)
+        return pickle.loads(fh.read(ref.size))
 
     def close(self) -> None:
         for fh in self._open.values():
-            fh.close()  # type: ignore[attr-defined]
+            fh.close()
         self._open.clear()
 
     def __enter__(self) -> SpoolReader:
