@@ -254,6 +254,15 @@ def test_scenarios_of_a_ranged_input_are_offered_and_switch_the_panels(client, f
     assert 'value="1"' in low and "(low)" in low and "(high)" in high
 
 
+def test_the_end_to_print_is_named_beside_each_end(client, folder):
+    """Where an input is a range the workbench says, as the PDF draft does, which end's panel is printed (the
+    higher declared energy) and that the other end is not for printing."""
+    low = client.post("/api/update", json=_state(folder, source="yaml", scenario=0)).json()["results_html"]
+    high = client.post("/api/update", json=_state(folder, source="yaml", scenario=1)).json()["results_html"]
+    assert "NOT FOR PRINTING: this is the low end" in low and "PRINT THIS PANEL: the high end" not in low
+    assert "PRINT THIS PANEL: the high end" in high and "NOT FOR PRINTING" not in high
+
+
 def test_serve_warns_when_not_bound_to_loopback(folder, monkeypatch):
     calls = []
     monkeypatch.setattr("labelcalc.workbench.server.serve", lambda ws, host, port: calls.append((host, port)))

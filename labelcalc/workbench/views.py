@@ -163,10 +163,32 @@ def page_data(ws: Workspace, st: State, comp: Computed) -> dict:
         "serving_g": comp.comps[i].formula.serving_grams(),
         "energy": energy_rows(items),
         "markets": [
-            {"a": a, "panel": panel_view(a.declaration), "failed_checks": [c for c in _checks(a) if not c.ok]}
+            {
+                "a": a,
+                "panel": panel_view(a.declaration),
+                "failed_checks": [c for c in _checks(a) if not c.ok],
+                "print_note": _print_note(comp, a.market, i),
+            }
             for a in items
         ],
     }
+
+
+def _print_note(comp: Computed, market: str, i: int) -> str | None:
+    """Where an input is a range: which end's panel is printed, by the PDF draft's own rule
+    (:func:`labelcalc.outputs.panelpdf.end_to_print`), said beside the end shown."""
+    from labelcalc.outputs.panelpdf import end_to_print
+
+    ends = [j for j in range(len(comp.comps)) if (market, j) in comp.assessments]
+    if len(ends) < 2 or i not in ends:
+        return None
+    best, why = end_to_print([(comp.assessments[(market, j)], []) for j in ends])
+    if ends[best] == i:
+        return why
+    return (
+        f"NOT FOR PRINTING: this is the {comp.comps[i].scenario} end; the panel to print is the "
+        f"{comp.comps[ends[best]].scenario} end, the one with the higher declared energy (the PDF draft prints it first)."
+    )
 
 
 def trace(comp: Computed, market: str, scenario: int, nutrient: str, basis: str) -> dict:
