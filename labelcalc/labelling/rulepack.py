@@ -247,6 +247,34 @@ class NutrientLinesType(Cited):
     )
 
 
+class TitleRuleType(Cited):
+    """The rule under the title where the law places it between the title and the first line under it.
+
+    Left out of a pack, the rule keeps the drawing's own place (close under the title).
+    """
+
+    leading_pt: Number = Field(
+        ge=0,
+        le=12,
+        description="least space (pt) between the body of the title and the body of the line under it (each the "
+        "type size, split above and below the baseline in the font's proportions); the rule is centred in the "
+        "clear space between them",
+    )
+    weight_pt: Number = Field(0.6, gt=0, le=4, description="weight of the rule")
+
+
+class ColumnRulesType(Cited):
+    """Vertical lines between the columns of a panel with two or more columns of figures, where the law asks for them.
+
+    Left out of a pack, a panel with several columns has no vertical lines.
+    """
+
+    weight_pt: Number = Field(0.5, gt=0, le=4, description="weight of each vertical line")
+    left_of_first: bool = Field(
+        True, description="also a line between the nutrient names and the first column of figures"
+    )
+
+
 class PanelLayout(Strict):
     """How the panel is drawn, where the law prescribes a form (sizes in mm and pt).
 
@@ -297,6 +325,14 @@ class PanelLayout(Strict):
     )
     nutrient_lines: NutrientLinesType | None = Field(
         None, description="spacing of the nutrient lines and which percentages are bold, where the law sets them"
+    )
+    title_rule: TitleRuleType | None = Field(
+        None, description="place of the rule under the title, where the law centres it between the lines of text"
+    )
+    column_rules: ColumnRulesType | None = Field(
+        None,
+        description="vertical lines separating the columns of figures of a panel with two or more columns, where "
+        "the law asks for them",
     )
     column_headers: dict[str, str] = Field(default_factory=dict, description="basis -> header text")
     header_note: str | None = Field(None, description="a line under the title, e.g. 'Amount per serving'")

@@ -331,10 +331,13 @@ class PanelDrawing(Flowable):
         servings = self.servings_line()
         # the first line under the title: the rule above it keeps clear of its ascenders
         first_pt = servings_pt if servings else serving_pt if (on_top and d.serving_g and lay.serving_type) else size
-        if lay.style == "boxed":
+        if lay.style == "boxed" and lay.title_rule is not None:  # centred between the lines (US: 101.9(d)(1)(v))
+            rule(float(lay.title_rule.weight_pt), first_pt, below=tsize, leading=float(lay.title_rule.leading_pt))
+        elif lay.style == "boxed":
             rule(0.6, first_pt, below=tsize * 0.7)
         else:
             y += size * 1.4 + max(0.0, first_pt - size)
+        columns_top: float | None = None  # the bar the column lines hang from
         if on_top:
             if servings:
                 for k, part in enumerate(wrap_lines(servings, FONT, servings_pt, W - 2 * pad)):
@@ -362,6 +365,7 @@ class PanelDrawing(Flowable):
                             y += ssize * 1.2
                             text(W - pad, y, part, sfont, ssize, "right")
             rule(lay.serving_rule_pt or (4 if lay.style == "boxed" else 1), size, below=ssize)
+            columns_top = ops[-1][1]
         if lay.header_note and not d.dual_column:  # dual columns are headed "Per serving" / "Per container"
             text(pad, y, lay.header_note, BOLD, size * 0.95)
             y += lh * 0.9
@@ -451,6 +455,15 @@ class PanelDrawing(Flowable):
                     text(W - pad, y, d.pack.panel.percent_label or "%", BOLD, size * 0.95, "right")
                     rule(0.35, size, below=size if lead is None else size * 0.95, leading=lead)
                     pct_heading_done = True
+        if lay.column_rules is not None and len(d.columns) > 1:
+            # vertical lines between the columns of figures (US: 101.9(e)(3) and (e)(6)), from the bar above the
+            # column headings down to the last rule of the rows, in the gap left of each column's figures
+            bottom = max((op[1] for op in ops if op[0] == "rule"), default=y)
+            firsts = [k for k, (kind, _) in enumerate(self.cols) if kind == "value"]
+            for k in firsts if lay.column_rules.left_of_first else firsts[1:]:
+                left = xr[k] - widths[k]
+                top = columns_top if columns_top is not None else pad
+                ops.append(("vline", left + (2.2 * mm - 1) / 2, top, bottom, float(lay.column_rules.weight_pt)))
         shown_pct = any(k == "pct" for k, _ in self.cols)
         for fn in d.pack.panel.footnotes:
             if not (fn.when == "always" or shown_pct):
@@ -481,6 +494,10 @@ class PanelDrawing(Flowable):
                         c.drawRightString(x, H - yy, s)
                     else:
                         c.drawString(x, H - yy, s)
+                elif op[0] == "vline":
+                    _, xx, y0, y1, weight = op
+                    c.setLineWidth(weight)
+                    c.line(xx, H - y0, xx, H - y1)
                 else:
                     _, yy, weight, x_end = op
                     c.setLineWidth(weight)
