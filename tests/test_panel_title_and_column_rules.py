@@ -155,3 +155,27 @@ def test_us_dual_column_pdf_draws_two_vertical_lines(tmp_path, demo_lib):
     )
     assert not failures
     assert len(vertical_paths(tmp_path / "hl_kettle_sea_salt.us.pdf")) == 2
+
+
+def test_workbench_panel_draws_the_same_title_rule_and_column_lines(tmp_path):
+    # the workbench's HTML panel reads the same pack data as the PDF: 101.9(d)(1)(v) title rule centred in the
+    # space the pack gives, (e)(3)/(e)(6) vertical lines left of each column of figures (eCFR 2026-08-27)
+    from labelcalc.workbench.panelhtml import panel_view
+    from labelcalc.workbench.server import render
+
+    d = _declaration("us", tmp_path / "dual", edit=_dual)
+    view = panel_view(d)
+    lay = d.pack.panel.layout
+    drawing, *_ = _plan(d)
+    assert view.column_rule_pt == pytest.approx(float(lay.column_rules.weight_pt))
+    assert view.column_rule_before == [k for k, (kind, _) in enumerate(drawing.cols) if kind == "value"] == [0, 2]
+    html = render("panel.html", p=view)
+    line = f"border-left: {view.column_rule_pt:g}pt solid #000"
+    assert html.count(line) == 2 * (len(view.rows) + 1)  # every row and the headings, two lines each
+    lead = float(lay.title_rule.leading_pt)
+    assert f"padding-bottom: {lead / 2:g}pt; margin-bottom: {lead / 2:g}pt" in html
+    single = panel_view(_declaration("us", tmp_path / "single"))
+    assert single.column_rule_pt is None and "border-left" not in render("panel.html", p=single)
+    for market in OTHER_MARKETS:
+        other = panel_view(_declaration(market, tmp_path / market))
+        assert other.title_rule_lead_pt is None and other.column_rule_pt is None

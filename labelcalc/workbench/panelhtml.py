@@ -75,6 +75,13 @@ class PanelView:
     percent_heading: str | None = None  # the heading of the percentage column on its own line (below_energy)
     serving_rule_pt: float = 1.0
     columns: int = 0  # cells right of the label in a row
+    # the rule under the title centred in this much space between the title and the next line (layout.title_rule)
+    title_rule_lead_pt: float | None = None
+    title_rule_pt: float | None = None
+    # vertical lines between dual columns (layout.column_rules): their weight and the cells (0 = first right of the
+    # label) with a line on their left
+    column_rule_pt: float | None = None
+    column_rule_before: list[int] = field(default_factory=list)
 
 
 def panel_view(d: Declaration) -> PanelView:
@@ -162,6 +169,9 @@ def panel_view(d: Declaration) -> PanelView:
         else:
             serving_line = (lay.serving_text, first)
     has_serving = bool(serving_line or per_line)
+    tr, cr = lay.title_rule, lay.column_rules
+    starts = [k for k, (kind, _) in enumerate(cols) if kind == "value"]
+    before = (starts if cr.left_of_first else starts[1:]) if cr is not None and len(d.columns) > 1 else []
     return PanelView(
         market=d.market,
         scenario=d.composition.scenario,
@@ -187,4 +197,8 @@ def panel_view(d: Declaration) -> PanelView:
         percent_heading=(pack.panel.percent_label or "%") if heading_below else None,
         serving_rule_pt=float(lay.serving_rule_pt or (4 if lay.style == "boxed" else 1)),
         columns=len(cols),
+        title_rule_lead_pt=float(tr.leading_pt) if tr is not None and lay.style == "boxed" else None,
+        title_rule_pt=float(tr.weight_pt) if tr is not None and lay.style == "boxed" else None,
+        column_rule_pt=float(cr.weight_pt) if before and cr is not None else None,
+        column_rule_before=before,
     )
