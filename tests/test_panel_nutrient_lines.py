@@ -26,7 +26,7 @@ from labelcalc.outputs.panelrun import panels_for
 from labelcalc.workbench.panelhtml import panel_view
 from labelcalc.workbench.server import render
 from tests.conftest import DEMO
-from tests.test_panel_serving_type import _declaration, _plan, _printed
+from tests.test_panel_serving_type import _declaration, _plan, _printed, dual_column_edit
 
 US_PRODUCTS = ["hl_kettle_sea_salt", "hl_kettle_sea_salt_lite", "hl_oat_bar", "hl_baked_cracker", "hl_gummy_sugar_free"]
 # 101.9(c)(9) DRV table and (c)(7)(iii): the nutrients whose percent is the (d)(7)(ii) percent of the DRV
@@ -121,12 +121,7 @@ def test_us_rules_between_nutrient_lines_are_centred_and_clear(tmp_path, product
 def test_us_dual_column_panel_keeps_the_leading(tmp_path):
     # 101.9(b)(12)(i) dual columns and the same (d)(1)(ii)(C) leading (eCFR 2026-08-27); 2.5 servings of 28 g and
     # 70 g net are invented demo data
-    def dual(text):
-        return text.replace("servings_per_container: 5", "servings_per_container: 2.5").replace(
-            "net_quantity: 140 g", "net_quantity: 70 g"
-        )
-
-    d = _declaration("us", tmp_path, edit=dual)
+    d = _declaration("us", tmp_path, edit=dual_column_edit)
     assert d.dual_column
     _, lines, nutrient, _ = _pairs(d)
     for (y1, below1, _, _), (y2, _, above2, _) in zip(lines, lines[1:]):

@@ -62,6 +62,14 @@ def _printed(pdf: Path, pattern: str) -> list[tuple[str, float, str]]:
     return out
 
 
+def dual_column_edit(text: str) -> str:
+    """2.5 servings of 28 g in a 70 g pack (invented demo data): 101.9(b)(12)(i) dual columns, per serving and per
+    container."""
+    return text.replace("servings_per_container: 5", "servings_per_container: 2.5").replace(
+        "net_quantity: 140 g", "net_quantity: 70 g"
+    )
+
+
 def _declaration(market: str, folder: Path, product: str = "hl_kettle_sea_salt", edit=None):
     """The declaration of a demo product (copied into ``folder`` and optionally edited first)."""
     from labelcalc.intake.library import load_library
@@ -186,12 +194,7 @@ def test_us_serving_size_too_long_even_at_8_point_takes_its_own_lines(tmp_path):
 def test_us_dual_column_panel_keeps_the_serving_lines(tmp_path):
     # 101.9(b)(12)(i) dual columns (200-300 % of the reference amount; snacks 30 g, 101.12(b)) and the same
     # serving lines of (d)(3)(i)-(ii) (eCFR 2026-08-27); 2.5 servings of 28 g is invented demo data
-    def dual(text):
-        return text.replace("servings_per_container: 5", "servings_per_container: 2.5").replace(
-            "net_quantity: 140 g", "net_quantity: 70 g"
-        )
-
-    d = _declaration("us", tmp_path, edit=dual)
+    d = _declaration("us", tmp_path, edit=dual_column_edit)
     assert d.dual_column
     _, texts, rules, _, width, pad = _plan(d)
     servings, label, amount = _serving_ops(d, texts, rules)

@@ -24,17 +24,10 @@ from reportlab.pdfbase import pdfmetrics
 from labelcalc.labelling.rulepack import get_packs
 from labelcalc.outputs.panelpdf import BOLD, FONT
 from labelcalc.outputs.panelrun import panels_for
-from tests.test_panel_serving_type import _box, _declaration, _plan
+from tests.test_panel_serving_type import _box, _declaration, _plan, dual_column_edit
 
 US_PRODUCTS = ["hl_kettle_sea_salt", "hl_kettle_sea_salt_lite", "hl_oat_bar", "hl_baked_cracker", "hl_gummy_sugar_free"]
 OTHER_MARKETS = ["ca", "eu", "uk", "anz", "codex"]
-
-
-def _dual(text: str) -> str:
-    """2.5 servings of 28 g in a 70 g pack: 101.9(b)(12)(i) dual columns, per serving and per container."""
-    return text.replace("servings_per_container: 5", "servings_per_container: 2.5").replace(
-        "net_quantity: 140 g", "net_quantity: 70 g"
-    )
 
 
 def _vlines(ops):
@@ -84,7 +77,7 @@ def test_us_dual_columns_are_separated_by_vertical_lines(tmp_path):
     # 101.9(e)(6) and (b)(12)(i) (eCFR 2026-08-27): per serving and per container "presented in two columns, and
     # the columns shall be separated by vertical lines"; extent and the line left of the first column from the
     # sample labels of (e)(6)(i): from memory — verify
-    d = _declaration("us", tmp_path, edit=_dual)
+    d = _declaration("us", tmp_path, edit=dual_column_edit)
     assert d.dual_column and d.columns == ["per_serving", "per_container"]
     cr = d.pack.panel.layout.column_rules
     assert cr is not None and "(e)(3)" in cr.citation and "(e)(6)" in cr.citation and cr.left_of_first
@@ -146,7 +139,7 @@ def test_us_dual_column_pdf_draws_two_vertical_lines(tmp_path, demo_lib):
     single.mkdir()
     _, failures = panels_for(DEMO / "hl_kettle_sea_salt.yaml", demo_lib, get_packs(["us"]), single, "2026-12-02")
     assert not failures and vertical_paths(single / "hl_kettle_sea_salt.us.pdf") == []
-    _declaration("us", tmp_path, edit=_dual)  # writes the edited demo copy under tmp_path/demo
+    _declaration("us", tmp_path, edit=dual_column_edit)  # writes the edited demo copy under tmp_path/demo
     from labelcalc.intake.library import load_library
 
     lib = load_library(tmp_path / "demo" / "ingredients")
@@ -163,7 +156,7 @@ def test_workbench_panel_draws_the_same_title_rule_and_column_lines(tmp_path):
     from labelcalc.workbench.panelhtml import panel_view
     from labelcalc.workbench.server import render
 
-    d = _declaration("us", tmp_path / "dual", edit=_dual)
+    d = _declaration("us", tmp_path / "dual", edit=dual_column_edit)
     view = panel_view(d)
     lay = d.pack.panel.layout
     drawing, *_ = _plan(d)
