@@ -4,7 +4,7 @@ Sizes vary (3-14 batch lines), about a third use a sub-formula (the demo seasoni
 pre-mix), a third are fried (with an oil uptake range for some), others baked or dried.
 The formulas are synthetic benchmark data, not products.
 
-    python3 benchmarks/generate.py 10000 /tmp/range10k
+    python3 benchmarks/generate.py 10000 range10k
 """
 
 from __future__ import annotations
