@@ -167,6 +167,15 @@ class Ingredient(BaseModel):
         return v
 
 
+def _other_part(vals: dict[str, float], problems: list[str], total_key: str, total: float, given: str, other: str):
+    """A total with one of its two parts given: the other part is the rest (a part above the total, beyond the
+    rounding of published tables, is a problem)."""
+    rest = total - vals[given]
+    if rest < -SUM_TOLERANCE_G:
+        problems.append(f"{given} exceeds {total_key}")
+    vals[other] = max(rest, 0.0)
+
+
 def _expand(raw: dict[str, float | None], zeros: dict[str, str]) -> tuple[dict[str, float], list[str]]:
     """Resolve convenience totals into leaves and apply the stated zeros.  Returns (values, problems)."""
     problems: list[str] = []
@@ -180,11 +189,9 @@ def _expand(raw: dict[str, float | None], zeros: dict[str, str]) -> tuple[dict[s
             if abs(vals["sugars"] + vals["starch"] - carb) > SUM_TOLERANCE_G:
                 problems.append("available_carbohydrate differs from sugars + starch; give only the parts")
         elif len(have) == 1:
-            other = "starch" if have[0] == "sugars" else "sugars"
-            rest = carb - vals[have[0]]
-            if rest < -SUM_TOLERANCE_G:
-                problems.append(f"{have[0]} exceeds available_carbohydrate")
-            vals[other] = max(rest, 0.0)
+            _other_part(
+                vals, problems, "available_carbohydrate", carb, have[0], "starch" if have[0] == "sugars" else "sugars"
+            )
         else:
             problems.append("available_carbohydrate needs sugars (or starch) beside it so the split is known")
     fib = raw.get("fibre")
@@ -192,10 +199,7 @@ def _expand(raw: dict[str, float | None], zeros: dict[str, str]) -> tuple[dict[s
         have = [k for k in ("fibre_soluble", "fibre_insoluble") if raw.get(k) is not None]
         if len(have) == 1:
             other = "fibre_insoluble" if have[0] == "fibre_soluble" else "fibre_soluble"
-            rest = fib - vals[have[0]]
-            if rest < -SUM_TOLERANCE_G:
-                problems.append(f"{have[0]} exceeds fibre")
-            vals[other] = max(rest, 0.0)
+            _other_part(vals, problems, "fibre", fib, have[0], other)
         elif not have:  # total fibre only: held unsplit; each market uses what its rule needs
             vals["fibre_unsplit"] = float(fib)
             vals["fibre_soluble"] = vals["fibre_insoluble"] = 0.0

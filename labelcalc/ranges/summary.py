@@ -19,6 +19,19 @@ def _f(v: float) -> float | None:
     return None if v != v else v  # NaN is the one float unequal to itself
 
 
+class _LazyTexts(dict):
+    """Printed texts of one nutrient by column, made on first use (a summary without the register reads only
+    each product's main column)."""
+
+    def __init__(self, eng: LabelEngine, nutrient: str):
+        super().__init__()
+        self.eng, self.nutrient = eng, nutrient
+
+    def __missing__(self, basis: str) -> list[str]:
+        got = self[basis] = self.eng.texts(self.nutrient, basis)
+        return got
+
+
 class _Tables:
     """One engine's tables as plain lists, read label by label (indexing a list is far cheaper than a
     numpy scalar); built once per engine."""
@@ -34,7 +47,7 @@ class _Tables:
         for r in pack.rows:
             n = r.nutrient
             pcts = lists["percent"][n]
-            texts: dict[str, list[str]] = {b: eng.texts(n, b) for b in eng.bases}
+            texts = _LazyTexts(eng, n)  # a column's texts only when a row reads them
             label = r.label if "{amount}" in r.label else None
             self.rows.append((n, label, lists["shown"][n], texts, pcts, f"{n}_percent", pb))
         eligible = [(c.claim.id, (c.verdict == VERDICT_ELIGIBLE).tolist()) for c in eng.claims]
