@@ -458,14 +458,16 @@ def _build(loaded: LoadedYaml, library: Library, index: FormulaIndex, stack: tup
     here = stack + (head.id,)
 
     def resolve(ref: str, path: tuple, *, want: str | None = None):
+        in_sub = ref in index.paths
+        in_lib = ref in library
+        if want == "ingredient" and in_lib:  # the common case first: nothing to report, no line looked up
+            return library.get(ref), None
         line = loaded.line_of(path)
         fld = ".".join(str(x) if not isinstance(x, int) else f"[{x}]" for x in path).replace(".[", "[")
         if ref in index.duplicates and want != "ingredient":
             dup = index.duplicate_problem(ref, loaded.file, line=line, field=fld)
             problems.problems.append(dup)
             return None, None
-        in_sub = ref in index.paths
-        in_lib = ref in library
         if want == "ingredient" or (want is None and in_lib and not in_sub):
             if in_lib:
                 return library.get(ref), None

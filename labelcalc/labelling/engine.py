@@ -158,12 +158,17 @@ class LabelEngine(StatementTables, FrontOfPackTables):
         return out
 
     def ingredients_of_kinds(self, kinds: list[str]) -> dict[int, list[str]]:
-        """The ingredients (ids, sorted) of any of ``kinds``, for each product that uses one."""
-        want = set(kinds)
-        return {
-            i: sorted(ing.id for ing in self.products[i].ingredients_used() if set(ing.kinds) & want)
-            for i in sorted({i for k in want for i in self.products_by_kind.get(k, [])})
-        }
+        """The ingredients (ids, sorted) of any of ``kinds``, for each product that uses one (worked out once
+        per set of kinds: many claims share one; callers only read the result)."""
+        want = frozenset(kinds)
+        memo = self.__dict__.setdefault("_of_kinds", {})
+        got = memo.get(want)
+        if got is None:
+            got = memo[want] = {
+                i: sorted(ing.id for ing in self.products[i].ingredients_used() if not want.isdisjoint(ing.kinds))
+                for i in sorted({i for k in want for i in self.products_by_kind.get(k, [])})
+            }
+        return got
 
     @cached_property
     def as_lists(self) -> dict[str, Any]:

@@ -35,13 +35,14 @@ def allergen_report(comp: Composition, pack: RulePack) -> dict:
             "note": f"the '{pack.market}' pack has no allergen rules",
             "caution": ALLERGEN_CAUTION,
         }
-    with_data = [(i.id, set(i.allergens)) for i in used if i.allergens]
+    hits: dict[str, list[str]] = {}
+    for i in used:
+        if i.allergens:
+            for key in rules.entries_hit(i.allergens):
+                hits.setdefault(key, []).append(i.id)
     for key, entry in rules.entries.items():
-        if with_data:
-            keys = entry.key_set
-            for iid, have in with_data:
-                if have & keys:
-                    present.setdefault(key, []).append(iid)
+        if key in hits:
+            present[key] = hits[key]
 
         def below(v: float) -> bool:
             x, t = to_decimal(v * 10), to_decimal(entry.threshold_mg_per_kg or 0)

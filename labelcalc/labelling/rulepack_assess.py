@@ -192,6 +192,21 @@ class Allergens(Strict):
     citation: str = Field(min_length=3)
     confidence: Confidence
 
+    @cached_property
+    def _hit_memo(self) -> dict[tuple[str, ...], tuple[str, ...]]:
+        return {}
+
+    def entries_hit(self, keys: list[str]) -> tuple[str, ...]:
+        """The entries (in pack order) an ingredient with these library allergen keys falls under; worked out
+        once per distinct set of keys (the allergen report runs for every label)."""
+        memo = self._hit_memo
+        k = tuple(keys)
+        got = memo.get(k)
+        if got is None:
+            have = set(keys)
+            got = memo[k] = tuple(key for key, e in self.entries.items() if not e.key_set.isdisjoint(have))
+        return got
+
 
 class QuidRule(Strict):
     for_ingredients_named_in: Literal["product_name"] = "product_name"
