@@ -17,6 +17,12 @@ ALLERGEN_CAUTION = (
 )
 
 
+def _below(v: float, entry) -> bool:
+    """Whether an amount [g/100 g] is under an entry's threshold [mg/kg] (decimal-exact; inclusive or not)."""
+    x, t = to_decimal(v * 10), to_decimal(entry.threshold_mg_per_kg or 0)
+    return x < t if entry.threshold_inclusive else x <= t
+
+
 def allergen_report(comp: Composition, pack: RulePack) -> dict:
     """Allergens the market requires to be declared, with the ingredients they come from; ingredients
     without allergen data are listed as unknown (treated as possibly containing allergens)."""
@@ -36,6 +42,7 @@ def allergen_report(comp: Composition, pack: RulePack) -> dict:
             "caution": ALLERGEN_CAUTION,
         }
     hits: dict[str, list[str]] = {}
+    not_declared: set[str] = set()  # present only below the entry's threshold
     for i in used:
         if i.allergens:
             for key in rules.entries_hit(i.allergens):
@@ -43,20 +50,18 @@ def allergen_report(comp: Composition, pack: RulePack) -> dict:
     for key, entry in rules.entries.items():
         if key in hits:
             present[key] = hits[key]
-
-        def below(v: float) -> bool:
-            x, t = to_decimal(v * 10), to_decimal(entry.threshold_mg_per_kg or 0)
-            return x < t if entry.threshold_inclusive else x <= t
-
-        if entry.threshold_mg_per_kg is not None and key in present:
+        if entry.threshold_mg_per_kg is None:
+            continue
+        if key in present:
             v = comp.value(entry.component or "sulphites")
-            if v is not None and below(v):
+            if v is not None and _below(v, entry):
                 present[key] = [f"{x} (below {entry.threshold_mg_per_kg:g} mg/kg: not declared)" for x in present[key]]
-        if entry.component and entry.threshold_mg_per_kg is not None and key not in present:
+                not_declared.add(key)
+        elif entry.component:
             v = comp.value(entry.component)
-            if v is not None and not below(v):
+            if v is not None and not _below(v, entry):
                 present[key] = [f"{entry.component} {v * 10:.0f} mg/kg"]
-    declared = [k for k, src in present.items() if not all("not declared" in s for s in src)]
+    declared = [k for k in present if k not in not_declared]
     names = [rules.entries[k].name for k in declared]
     statement = f"{rules.summary_prefix} {', '.join(names)}." if names else None
     return {

@@ -407,9 +407,9 @@ def _trigger_words(eng: E.LabelEngine, st, tr: ST.TriggerResult, i: int, claims:
     if t.header_flag:
         return f"the formula says {t.header_flag.replace('_', ' ')}", []
     if t.substance and tr.hits is not None:
-        return f"contains {t.substance} ({', '.join(tr.hits[i])})", []
+        return f"contains {t.substance} ({', '.join(tr.hits.get(i, []))})", []
     if t.kind and tr.hits is not None:
-        return f"contains an ingredient of kind '{t.kind}' ({', '.join(tr.hits[i])})", []
+        return f"contains an ingredient of kind '{t.kind}' ({', '.join(tr.hits.get(i, []))})", []
     if t.components and tr.value is not None:
         v = float(tr.value[i])
         unit = C.unit_of(t.components[0])

@@ -25,7 +25,7 @@ class TriggerResult:
     hit: np.ndarray
     undecided: np.ndarray
     value: np.ndarray | None = None  # components triggers: the figure compared
-    hits: list[list[str]] | None = None  # substance/kind triggers: the ingredients found
+    hits: dict[int, list[str]] | None = None  # substance/kind triggers: the ingredients found, by product
     conditions: list[CondResult] | None = None  # with_claim triggers
     parts: list[TriggerResult] | None = None  # all_of triggers
     base_unknown: np.ndarray | None = None  # components triggers: the per-100 g sum is unknown
@@ -49,6 +49,15 @@ class StatementTables(ClaimTables):
             [np.any([t.hit | t.undecided for t in triggers], axis=0) for _, triggers in self.statements], dtype=bool
         ).reshape(len(self.statements), self.n)
 
+    @staticmethod
+    def _rows_with(hits: dict[int, list[str]], n: int) -> np.ndarray:
+        """Products with at least one ingredient found, as a mask."""
+        out = np.zeros(n, dtype=bool)
+        found = [i for i, h in hits.items() if h]
+        if found:
+            out[found] = True
+        return out
+
     def trigger(self, t: StatementTrigger) -> TriggerResult:
         n = self.n
         no = np.zeros(n, dtype=bool)
@@ -69,15 +78,15 @@ class StatementTables(ClaimTables):
             return TriggerResult(t, flag, no)
         if t.substance:
             want = t.substance.lower()
-            hits: list[list[str]] = [[] for _ in range(n)]
+            hits: dict[int, list[str]] = {}
             for i in self.products_by_substance.get(want, []):
                 hits[i] = [g.id for g in self.products[i].ingredients_used() if (g.substance or "").lower() == want]
-            return TriggerResult(t, np.array([bool(h) for h in hits], dtype=bool), no, hits=hits)
+            return TriggerResult(t, self._rows_with(hits, n), no, hits=hits)
         if t.kind:
-            hits = [[] for _ in range(n)]
+            hits = {}
             for i in self.products_by_kind.get(t.kind, []):
                 hits[i] = [g.id for g in self.products[i].ingredients_used() if t.kind in g.kinds]
-            return TriggerResult(t, np.array([bool(h) for h in hits], dtype=bool), no, hits=hits)
+            return TriggerResult(t, self._rows_with(hits, n), no, hits=hits)
         if t.components:
             v, base_unk = self._trigger_value(t)
             unk = base_unk
