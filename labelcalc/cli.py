@@ -17,7 +17,7 @@ from pathlib import Path
 
 import typer
 
-from labelcalc import __version__
+from labelcalc import __version__, threads  # noqa: F401 - threads first: before numpy loads (see its notes)
 from labelcalc.api import find_library
 from labelcalc.errors import InputError, LabelError, Problem
 from labelcalc.formulation.composition import compose
@@ -710,9 +710,7 @@ def range_cmd(
         f"{n_ok} product(s) labelled for {', '.join(markets)}; {n_bad} failed"
         + (f" (see {out / 'errors.csv'})" if n_bad or result.errors else "")
     )
-    kinds: dict[str, int] = {}
-    for f in result.files:
-        kinds[f["outcome"]] = kinds.get(f["outcome"], 0) + 1
+    kinds = result.files.tally()  # counted in the run: a streamed inventory's part file is gone by now
     typer.echo(
         f"{len(result.files)} source item(s) accounted for: "
         + ", ".join(f"{n} {k}" for k, n in sorted(kinds.items()))

@@ -18,8 +18,9 @@ and so does every formula that refers to the id.
 from __future__ import annotations
 
 import difflib
+import os
 import pickle
-from collections.abc import Callable, Iterable
+from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass
 from pathlib import Path
 from typing import BinaryIO
@@ -82,6 +83,32 @@ def yaml_files(folder: Path) -> list[Path]:
     return sorted(f for f in folder.rglob("*") if f.suffix.lower() in YAML_SUFFIXES and f.is_file())
 
 
+def yaml_file_names(folder: Path) -> Iterator[tuple[str, bool]]:
+    """The files :func:`yaml_files` lists, in the same order (folders depth first, names sorted: the order
+    of their paths' parts), as text with whether each is a link: a range names every file, and a path object
+    takes several times the memory of its text.  Linked folders are not entered, as with :func:`yaml_files`."""
+
+    def walk(d: str) -> Iterator[tuple[str, bool]]:
+        try:
+            with os.scandir(d) as it:
+                found = sorted(it, key=lambda e: e.name)
+        except PermissionError:
+            return
+        for e in found:
+            try:
+                is_dir = e.is_dir()
+            except OSError:
+                is_dir = False
+            if is_dir and not e.is_symlink():
+                yield from walk(e.path)
+                continue
+            i = e.name.rfind(".")
+            if 0 < i < len(e.name) - 1 and e.name[i:].lower() in YAML_SUFFIXES and e.is_file():
+                yield e.path, e.is_symlink()
+
+    return walk(str(folder))
+
+
 def classify(path: Path) -> CatalogueEntry:
     """Parse one file and say what it is; never raises for bad content."""
     return _classify(path)[0]
@@ -92,17 +119,20 @@ def classify_to_spool(files: list[Path], spool: Path) -> list[CatalogueEntry]:
     (pickled) and its entry says where, so a range parses each product file once however many processes
     share the work and however large the range (the parent keeps three numbers per product, not its data).
     ``spool`` is a private file of the run, read back only by :class:`SpoolReader` in the same run."""
-    out = []
+    return list(iter_classify_to_spool(files, spool))
+
+
+def iter_classify_to_spool(files: Iterable[Path | str], spool: Path) -> Iterator[CatalogueEntry]:
+    """:func:`classify_to_spool`, each entry given as soon as its file is classified."""
     name = str(spool)  # one text object for every entry of the share (pickled once with them)
     with spool.open("ab") as fh:
         for f in files:
-            e, data = _classify(f)
+            e, data = _classify(Path(f))
             if e.kind == "product":
                 blob = pickle.dumps(data, protocol=pickle.HIGHEST_PROTOCOL)
                 e.spooled = Spooled(name, fh.tell(), len(blob))
                 fh.write(blob)
-            out.append(e)
-    return out
+            yield e
 
 
 class SpoolReader:
@@ -223,6 +253,7 @@ class FormulaIndex:
         self.paths: dict[str, Path | str] = {}  # str in a look-up copy (see lookup_only)
         self.kinds: dict[str, str] = {}
         self.duplicates: dict[str, list[Path]] = {}
+        self.duplicate_kinds: dict[str, list[str]] = {}  # the kind of each file in ``duplicates`` (ranges)
         seen: set[str] = set()  # resolved paths as text: a range holds one per file
         by_id: dict[str, list[CatalogueEntry]] = {}
         files = []
@@ -246,6 +277,7 @@ class FormulaIndex:
         for ident, es in by_id.items():
             if len(es) > 1:
                 self.duplicates[ident] = [e.path for e in es]
+                self.duplicate_kinds[ident] = [e.kind for e in es]
             else:
                 self.paths[ident] = es[0].path
                 self.kinds[ident] = es[0].kind
@@ -266,6 +298,50 @@ class FormulaIndex:
         twin.paths = {k: str(p) for k, p in self.paths.items()}
         twin.kinds, twin.duplicates = dict(self.kinds), dict(self.duplicates)
         return twin
+
+    @classmethod
+    def scan(
+        cls,
+        folder: Path,
+        classify_all: Callable[[list[str]], Iterable[CatalogueEntry]],
+        take: Callable[[CatalogueEntry], None],
+    ) -> FormulaIndex:
+        """A range's one pass over a folder: every YAML file (as :func:`yaml_files` lists them) classified by
+        ``classify_all`` (as :func:`classify` does, in order; entries may come as they are made) and handed to
+        ``take`` with its path as text, then dropped.  Returns the look-up of formulas by id only, as
+        :meth:`lookup_only` gives it (paths as text), with ``duplicate_kinds``; no file list: a range of
+        100,000 files keeps no entry per file here."""
+        names: list[str] = []
+        links = False
+        for name, link in yaml_file_names(folder):
+            names.append(name)
+            links = links or link
+        if links:  # a file and a link to it are one file, as in __init__ (without links no two names meet)
+            seen: set[str] = set()
+            kept = []
+            for name in names:
+                key = real_file_path(name)
+                if key not in seen:
+                    seen.add(key)
+                    kept.append(name)
+            names = kept
+        index = cls([])
+        paths = index.paths
+        for name, e in zip(names, classify_all(names)):
+            e.path = name  # type: ignore[assignment]  # text: see yaml_file_names
+            ident = e.id
+            if ident is not None:
+                if ident in index.duplicates:
+                    index.duplicates[ident].append(name)  # type: ignore[arg-type]
+                    index.duplicate_kinds[ident].append(e.kind)
+                elif ident in paths:
+                    index.duplicates[ident] = [paths.pop(ident), name]  # type: ignore[list-item]
+                    index.duplicate_kinds[ident] = [index.kinds.pop(ident), e.kind]
+                else:
+                    paths[ident] = name
+                    index.kinds[ident] = e.kind
+            take(e)
+        return index
 
     def duplicate_problem(self, ident: str, file: str | None = None, **where) -> Problem:
         """The message for a use (or definition) of an id that several files define."""

@@ -140,7 +140,7 @@ def write_outputs(
                 "tool_version": __version__,
                 "summary": Lazy(rows()),
                 "errors": result.errors,
-                "files": result.files,
+                "files": Lazy(result.files),  # read back from the run's inventory part file, row by row
                 "changes": changes or [],
                 "draft_notice": "DRAFT — verify against current local regulation.",
             },

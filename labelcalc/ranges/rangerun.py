@@ -9,14 +9,24 @@ from __future__ import annotations
 
 import hashlib
 import json
+import pickle
 import traceback
+from collections.abc import Iterable, Iterator
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass, field
 from pathlib import Path
 
 from labelcalc.errors import InputError, LabelError, Problem, display_path
 from labelcalc.formulation.composition import compose, compose_many
-from labelcalc.intake.catalogue import CatalogueEntry, Spooled, SpoolReader, classify, classify_to_spool, other_files
+from labelcalc.intake.catalogue import (
+    CatalogueEntry,
+    Spooled,
+    SpoolReader,
+    classify,
+    classify_to_spool,
+    iter_classify_to_spool,
+    other_files,
+)
 from labelcalc.intake.formula import Formula, FormulaIndex, build_formula, load_formula
 from labelcalc.intake.library import Library, load_library
 from labelcalc.intake.sources import index_for, sheet_products
@@ -64,6 +74,95 @@ class ItemError:
     counts: bool = True
 
 
+class Inventory:
+    """Every file of a range source with its kind and id, in source order, and, once the run is settled,
+    what became of it (the rows of ``files.csv``).  With ``path`` (a streamed run) the entries go to that
+    private part file in batches as they are found, so the main process holds none of them; iterating reads
+    them back, one batch at a time, each as a row with its outcome.  Without ``path`` they stay in memory."""
+
+    BATCH = 2000  # entries per pickle record
+
+    def __init__(self, path: Path | None = None) -> None:
+        self.path = path
+        self._rows: list[tuple[str, str, str]] = []
+        self._count = 0
+        self._ok: set[str] = set()
+        self._failed_files: set[str] = set()
+        self._failed_ids: set[str] = set()
+        self._tally: dict[str, int] = {}
+
+    def add(self, file: str, kind: str, ident: str) -> None:
+        self._rows.append((file, kind, ident))
+        self._count += 1
+        if self.path is not None and len(self._rows) >= self.BATCH:
+            self._flush()
+
+    def _flush(self) -> None:
+        assert self.path is not None
+        with self.path.open("ab") as fh:
+            pickle.dump(self._rows, fh, protocol=pickle.HIGHEST_PROTOCOL)
+        self._rows = []
+
+    def close(self) -> None:
+        """Write the entries still waiting (a streamed inventory); call when the last entry is added."""
+        if self.path is not None and self._rows:
+            self._flush()
+
+    def _entries(self) -> Iterator[tuple[str, str, str]]:
+        if self.path is not None and self.path.exists():
+            with self.path.open("rb") as fh:
+                while True:
+                    try:
+                        batch = pickle.load(fh)
+                    except EOFError:
+                        break
+                    yield from batch
+        yield from self._rows
+
+    def settle(self, result: RangeResult) -> None:
+        """Take what became of the products from the run's result (its labelled ids and error rows) and
+        count the outcomes (see :meth:`tally`)."""
+        self._ok = set(result.labelled)
+        self._failed_files = {e["file"] for e in result.errors}
+        self._failed_ids = {e["product_id"] for e in result.errors}
+        tally: dict[str, int] = {}
+        for file, kind, ident in self._entries():
+            o = self._outcome(kind, ident, file)
+            tally[o] = tally.get(o, 0) + 1
+        self._tally = tally
+
+    def _outcome(self, kind: str, ident: str, file: str) -> str:
+        """What became of a file: labelled, failed (see errors.csv) or a recognised non-product."""
+        if kind == "error":
+            return "error (see errors.csv)"
+        if kind.startswith("product"):
+            return "labelled" if ident in self._ok else "failed (see errors.csv)"
+        if kind == "subformula":
+            failed = ident in self._failed_ids and file in self._failed_files
+            return "error (see errors.csv)" if failed else "sub-formula"
+        if kind == "not read":
+            return "not read: not a YAML file"
+        return f"not a product: {kind}"
+
+    def tally(self) -> dict[str, int]:
+        """How many files had each outcome (counted when settled)."""
+        return dict(self._tally)
+
+    def __iter__(self) -> Iterator[dict]:
+        for file, kind, ident in self._entries():
+            yield {"file": file, "kind": kind, "id": ident, "outcome": self._outcome(kind, ident, file)}
+
+    def __len__(self) -> int:
+        return self._count
+
+    def __eq__(self, other: object) -> bool:
+        if isinstance(other, (Inventory, list)):
+            return list(self) == list(other)
+        return NotImplemented
+
+    __hash__ = None  # type: ignore[assignment]
+
+
 @dataclass
 class RangeResult:
     rows: list[dict] = field(default_factory=list)
@@ -73,7 +172,7 @@ class RangeResult:
     products_failed: int = 0
     labelled: list[str] = field(default_factory=list)  # ids of the products labelled for every market
     crashes: list[dict] = field(default_factory=list)  # unexpected errors: product, file, traceback
-    files: list[dict] = field(default_factory=list)  # every file of the source and what became of it
+    files: Inventory = field(default_factory=Inventory)  # every file of the source and what became of it
     parts: list[PartInfo] = field(default_factory=list)  # streamed runs: the summary rows, in part files
 
     def merge(self, other: RangeResult) -> None:
@@ -148,16 +247,17 @@ CRASH_REPORT = "crash-report.txt"
 
 def enumerate_products(
     source: Path, index: FormulaIndex | None = None, exclude: list[Path] | None = None
-) -> tuple[list, list[dict]]:
+) -> tuple[list, Inventory]:
     """The entries of a range source (product files, sheet products, known failures) and the inventory of its
     files: every file of a folder with its kind and id (files in ``exclude`` folders, such as the run's own
-    output folder, left out), or the products of a sheet."""
+    output folder, left out), or the products of a sheet.  A streamed run over a folder goes through
+    :func:`scan_products` instead."""
+    files = Inventory()
     if source.is_dir():
         index = index or FormulaIndex([source])
         items: list = []
-        files = []
         for e in index.entries:
-            files.append({"file": e.shown, "kind": e.kind, "id": e.id or ""})
+            files.add(e.shown, e.kind, e.id or "")
             if e.kind == "error":
                 items.append(ItemError(e.path.stem, e.problems or []))
             elif e.id in index.duplicates:
@@ -170,26 +270,64 @@ def enumerate_products(
                 )
             elif e.kind == "product":
                 items.append(ProductFile(str(e.path), e.id or "", e.spooled))
-        skip = [x.resolve() for x in exclude or []]
-        for f in other_files(source):
-            if any(f.resolve().is_relative_to(x) for x in skip):
-                continue
-            files.append({"file": display_path(f) or str(f), "kind": "not read", "id": ""})
+        _not_read(source, exclude, files)
         return items, files
     if source.suffix.lower() in (".csv", ".xlsx"):
         products, problems = sheet_products(source)
         shown = display_path(source) or str(source)
-        files = [{"file": shown, "kind": "product (sheet)", "id": p.product_id} for p in products]
+        for p in products:
+            files.add(shown, "product (sheet)", p.product_id)
         return products + [ItemError("", [p], counts=False) for p in problems], files
     if source.suffix.lower() in (".yaml", ".yml"):
         entry = classify(source)
-        files = [{"file": entry.shown, "kind": entry.kind, "id": entry.id or ""}]
+        files.add(entry.shown, entry.kind, entry.id or "")
         if entry.kind == "error":
             return [ItemError(source.stem, entry.problems or [])], files
         return ([ProductFile(str(source), entry.id or "")] if entry.kind == "product" else []), files
     raise InputError(
         Problem("a range source is a folder of formula files, a .csv or an .xlsx file", file=display_path(source))
     )
+
+
+def _not_read(source: Path, exclude: list[Path] | None, files: Inventory) -> None:
+    """The folder's files that are not YAML, listed as not read (those in ``exclude`` folders left out)."""
+    skip = [x.resolve() for x in exclude or []]
+    for f in other_files(source):
+        if any(f.resolve().is_relative_to(x) for x in skip):
+            continue
+        files.add(display_path(f) or str(f), "not read", "")
+
+
+def scan_products(
+    source: Path,
+    classify_all,
+    files: Inventory,
+    exclude: list[Path] | None = None,
+) -> tuple[list, FormulaIndex]:
+    """:func:`enumerate_products` for a folder in one pass (:meth:`FormulaIndex.scan`): each file goes to the
+    inventory as it is classified, a product file becomes a :class:`ProductFile` (path and id as text, where
+    its parsed data waits), and nothing else of a file is kept.  Returns the entries and the look-up of
+    sub-formulas by id."""
+    items: list = []
+
+    def take(e: CatalogueEntry) -> None:
+        shown = display_path(e.path) or str(e.path)
+        files.add(shown, e.kind, e.id or "")
+        if e.kind == "error":
+            items.append(ItemError(Path(e.path).stem, e.problems or []))
+        elif e.kind == "product":
+            items.append(ProductFile(str(e.path), e.id or "", e.spooled))
+
+    index = FormulaIndex.scan(source, classify_all, take)
+    _not_read(source, exclude, files)
+    if index.duplicates:  # no file of an id that several files define is used: each is a known failure
+        items = [it for it in items if not (isinstance(it, ProductFile) and it.id in index.duplicates)]
+        for ident, paths in index.duplicates.items():
+            for p, kind in zip(paths, index.duplicate_kinds[ident]):
+                shown = display_path(p) or str(p)
+                problem = index.duplicate_problem(ident, shown, field=f"{kind}.id")
+                items.append(ItemError(ident, [problem], counts=kind == "product"))
+    return items, index
 
 
 def _item_ident(it) -> tuple[str, str]:
@@ -358,24 +496,32 @@ def _worker(items: list, part: Path | None) -> RangeResult:
     )
 
 
-def _classify_share(files: list[Path], spool: Path | None) -> list[tuple]:
+def _classify_share(files: list[str], spool: Path | None) -> list[tuple]:
     """A share's entries as plain tuples without their paths (the main process has those): less to send back
     and to hold while a large range's entries arrive."""
-    entries = classify_to_spool(files, spool) if spool is not None else [classify(f) for f in files]
+    paths = [Path(f) for f in files]
+    entries = classify_to_spool(paths, spool) if spool is not None else [classify(f) for f in paths]
     return [(e.kind, e.id, e.problems, e.spooled) for e in entries]
 
 
-def _classify_shared(files: list[Path], jobs: int, spool_dir: Path | None) -> list[CatalogueEntry]:
-    """Classify files (each parsed) in ``jobs`` worker processes, in order; with ``spool_dir`` each share puts
-    its product files' parsed data in a spool file there (see :func:`classify_to_spool`)."""
+def _classify_shared(files: list[str], jobs: int, spool_dir: Path | None) -> Iterator[CatalogueEntry]:
+    """Classify files (each parsed) in ``jobs`` worker processes, given in order as each share comes back;
+    with ``spool_dir`` each share puts its product files' parsed data in a spool file there (see
+    :func:`classify_to_spool`)."""
     n = max(1, -(-len(files) // (jobs * 4)))
     shares = [files[i : i + n] for i in range(0, len(files), n)]
     spools = [spool_dir / f"spool-{k:05d}.pickle" if spool_dir is not None else None for k in range(len(shares))]
     with ProcessPoolExecutor(max_workers=jobs, mp_context=mp_context()) as ex:
-        out = []
         for share, got in zip(shares, ex.map(_classify_share, shares, spools)):
-            out += [CatalogueEntry(f, *t) for f, t in zip(share, got)]
-        return out
+            yield from (CatalogueEntry(f, *t) for f, t in zip(share, got))  # type: ignore[arg-type]
+
+
+def _classify_here(files: Iterable[str], spool: Path | None) -> Iterator[CatalogueEntry]:
+    """Classify files in this process, as they are asked for (with ``spool``: see :func:`classify_to_spool`)."""
+    if spool is not None:
+        yield from iter_classify_to_spool(files, spool)
+    else:
+        yield from (classify(Path(f)) for f in files)
 
 
 def _share_key(it) -> str:
@@ -385,8 +531,9 @@ def _share_key(it) -> str:
     return it.product_id
 
 
-#: products per share of a streamed run: bounds a worker's memory; large enough for the table operations
-STREAM_SHARE = 1000
+#: products per share of a streamed run: bounds a worker's memory (about 65 kB per product while a share is
+#: labelled); large enough for the table operations (per product, shares of 500 label as fast as of 1000)
+STREAM_SHARE = 500
 
 
 def run_range(
@@ -412,13 +559,17 @@ def run_range(
         start_early()
     library = load_library(library_path)
     packs = get_packs(markets, rules)
-    if jobs > 1 and source.is_dir():  # the files are parsed to be classified by the workers too
-        index = FormulaIndex([source], classify_all=lambda files: _classify_shared(files, jobs, part_dir))
-    elif part_dir is not None and source.is_dir():  # streamed: parsed data spooled from classifying to loading
-        index = FormulaIndex([source], classify_all=lambda files: classify_to_spool(files, part_dir / "spool.pickle"))
+    if source.is_dir() and (jobs > 1 or part_dir is not None):  # one pass, nothing kept per file but products
+        inventory = Inventory(part_dir / "files.pickle" if part_dir is not None else None)
+        if jobs > 1:  # the files are parsed to be classified by the workers too
+            items, index = scan_products(source, lambda fs: _classify_shared(fs, jobs, part_dir), inventory, exclude)
+        else:  # streamed: parsed data spooled from classifying to loading
+            spool = part_dir / "spool.pickle" if part_dir is not None else None
+            items, index = scan_products(source, lambda fs: _classify_here(fs, spool), inventory, exclude)
+        inventory.close()
     else:
         index = index_for(source)
-    items, inventory = enumerate_products(source, index, exclude)
+        items, inventory = enumerate_products(source, index, exclude)
     total = len(items)
     if part_dir is not None:
         items.sort(key=_share_key)
@@ -440,7 +591,7 @@ def run_range(
             if progress:
                 progress(done, total)
     else:
-        lookup = index.lookup_only()
+        lookup = index.lookup_only() if index.entries else index  # a scanned index is a look-up already
         del index  # workers parse their own share; the main process keeps only the look-up
         init = (str(library_path), markets, str(rules) if rules else None, lookup, with_labels)
         with ProcessPoolExecutor(
@@ -462,28 +613,6 @@ def run_range(
     result.parts.sort(key=lambda p: p.path)
     result.errors.sort(key=lambda e: (e["product_id"], e["market"], e["file"], str(e["line"]), e["message"]))
     result.crashes.sort(key=lambda c: (c["product_id"], c["file"]))
-    result.files = _outcomes(inventory, result)
+    inventory.settle(result)
+    result.files = inventory
     return result
-
-
-def _outcomes(inventory: list[dict], result: RangeResult) -> list[dict]:
-    """What became of every file of the source: labelled, failed (see errors.csv) or a recognised non-product."""
-    ok = set(result.labelled)
-    failed_files = {e["file"] for e in result.errors}
-    failed_ids = {e["product_id"] for e in result.errors}
-    out = []
-    for f in inventory:
-        kind = f["kind"]
-        if kind == "error":
-            outcome = "error (see errors.csv)"
-        elif kind.startswith("product"):
-            outcome = "labelled" if f["id"] in ok else "failed (see errors.csv)"
-        elif kind == "subformula":
-            outcome = "error (see errors.csv)" if f["id"] in failed_ids and f["file"] in failed_files else "sub-formula"
-        elif kind == "not read":
-            outcome = "not read: not a YAML file"
-        else:
-            outcome = f"not a product: {kind}"
-        f["outcome"] = outcome  # in place: a large range's inventory is not copied
-        out.append(f)
-    return out
