@@ -17,9 +17,11 @@ and so does every formula that refers to the id.
 
 from __future__ import annotations
 
+import contextlib
 import difflib
 import os
 import pickle
+import sqlite3
 from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass
 from pathlib import Path
@@ -230,6 +232,56 @@ def _kind_of(path: Path, data) -> CatalogueEntry:
     )
 
 
+class ProductPaths:
+    """Formula paths by id, as :attr:`FormulaIndex.paths` holds them, for a range of many products: the
+    sub-formulas' in memory, the products' in a private SQLite file of the run, asked only for an id that is
+    not a sub-formula's (a formula that uses a product as a part, or an unknown id).  Every worker process
+    of a range gets a copy: without it each would hold a path for every product of the range."""
+
+    def __init__(self, subformulas: dict[str, str], file: Path) -> None:
+        self.subformulas = subformulas
+        self.file = str(file)
+        self._db: sqlite3.Connection | None = None
+
+    @classmethod
+    def write(cls, paths: dict, kinds: dict[str, str], file: Path) -> ProductPaths:
+        """Put the products of ``paths`` (``kinds`` says which) in ``file``; the others stay in memory."""
+        with contextlib.closing(sqlite3.connect(file)) as db:
+            db.execute("CREATE TABLE products (id TEXT PRIMARY KEY, path TEXT NOT NULL)")
+            db.executemany(
+                "INSERT INTO products VALUES (?, ?)", ((k, str(p)) for k, p in paths.items() if kinds[k] == "product")
+            )
+            db.commit()
+        return cls({k: str(p) for k, p in paths.items() if kinds[k] != "product"}, file)
+
+    def _product(self, ident: str) -> str | None:
+        if self._db is None:
+            self._db = sqlite3.connect(f"file:{self.file}?mode=ro", uri=True, check_same_thread=False)
+        row = self._db.execute("SELECT path FROM products WHERE id = ?", (ident,)).fetchone()
+        return row[0] if row else None
+
+    def get(self, ident: str, default=None):
+        found = self.subformulas.get(ident)
+        if found is None and isinstance(ident, str):
+            found = self._product(ident)
+        return default if found is None else found
+
+    def __contains__(self, ident: object) -> bool:
+        return ident in self.subformulas or (isinstance(ident, str) and self._product(ident) is not None)
+
+    def __getitem__(self, ident: str) -> str:
+        found = self.get(ident)
+        if found is None:
+            raise KeyError(ident)
+        return found
+
+    def __getstate__(self) -> dict:
+        return {"subformulas": self.subformulas, "file": self.file}
+
+    def __setstate__(self, state: dict) -> None:
+        self.subformulas, self.file, self._db = state["subformulas"], state["file"], None
+
+
 class FormulaIndex:
     """Every YAML file of a set of folders (recursively), classified; formulas found by id.
 
@@ -342,6 +394,16 @@ class FormulaIndex:
                     index.kinds[ident] = e.kind
             take(e)
         return index
+
+    def products_apart(self, file: Path) -> FormulaIndex:
+        """A look-up copy (as :meth:`lookup_only`) whose product paths wait in ``file`` (see
+        :class:`ProductPaths`) and whose ``kinds`` name the sub-formulas only (all the suggestions for an
+        unknown id read): what a range's worker processes get."""
+        twin = FormulaIndex([])
+        twin.paths = ProductPaths.write(self.paths, self.kinds, file)  # type: ignore[assignment]
+        twin.kinds = {k: kind for k, kind in self.kinds.items() if kind != "product"}
+        twin.duplicates, twin.duplicate_kinds = dict(self.duplicates), dict(self.duplicate_kinds)
+        return twin
 
     def duplicate_problem(self, ident: str, file: str | None = None, **where) -> Problem:
         """The message for a use (or definition) of an id that several files define."""

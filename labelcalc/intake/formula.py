@@ -458,10 +458,10 @@ def _build(loaded: LoadedYaml, library: Library, index: FormulaIndex, stack: tup
     here = stack + (head.id,)
 
     def resolve(ref: str, path: tuple, *, want: str | None = None):
-        in_sub = ref in index.paths
         in_lib = ref in library
         if want == "ingredient" and in_lib:  # the common case first: nothing to report, no line looked up
             return library.get(ref), None
+        in_sub = ref in index.paths  # after the common case: a range's product paths may wait on disk
         line = loaded.line_of(path)
         fld = ".".join(str(x) if not isinstance(x, int) else f"[{x}]" for x in path).replace(".[", "[")
         if ref in index.duplicates and want != "ingredient":

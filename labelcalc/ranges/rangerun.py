@@ -591,7 +591,10 @@ def run_range(
             if progress:
                 progress(done, total)
     else:
-        lookup = index.lookup_only() if index.entries else index  # a scanned index is a look-up already
+        if part_dir is not None:  # product paths on disk: asked for only when a formula uses a product
+            lookup = index.products_apart(part_dir / "products.sqlite")
+        else:
+            lookup = index.lookup_only() if index.entries else index  # a scanned index is a look-up already
         del index  # workers parse their own share; the main process keeps only the look-up
         init = (str(library_path), markets, str(rules) if rules else None, lookup, with_labels)
         with ProcessPoolExecutor(
