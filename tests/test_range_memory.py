@@ -152,3 +152,42 @@ def test_workers_use_one_matrix_library_thread_and_leave_the_callers_setting(mon
     with ProcessPoolExecutor(max_workers=1, mp_context=mp_context()) as ex:
         assert ex.submit(_thread_settings).result() == dict.fromkeys(ONE_THREAD, "1")
     assert _thread_settings() == dict.fromkeys(ONE_THREAD)  # this process's setting is not changed
+
+
+def test_product_paths_wait_on_disk_and_travel_to_workers(tmp_path):
+    import pickle
+
+    src = _tree(tmp_path / "src")
+    full = FormulaIndex([src])
+    apart = full.products_apart(tmp_path / "products.sqlite")
+    paths = apart.paths
+    assert "p_b" not in paths.subformulas and paths.subformulas == {"s_b": str(src / "B.YML")}  # type: ignore[union-attr]
+    again = pickle.loads(pickle.dumps(apart))  # as a worker gets it: the file's name, no connection
+    for look in (apart, again):
+        assert "p_b" in look.paths and look.paths["p_b"] == str(src / "b.yaml")
+        assert look.paths.get("s_b") == str(src / "B.YML")
+        assert "twin" not in look.paths and "nothing" not in look.paths and look.paths.get("nothing") is None
+        with pytest.raises(KeyError):
+            look.paths["nothing"]
+        assert look.kinds == {"s_b": "subformula"} and look.duplicates == full.duplicates
+
+
+def test_a_product_used_as_a_part_is_found_by_the_workers(tmp_path):
+    """A formula may use another product as a part (``subformula: <product id>``): its path comes from the
+    run's product file, and the run labels it as a run without workers does."""
+    src = tmp_path / "src"
+    shutil.copytree(ROOT / "demo_products", src, ignore=shutil.ignore_patterns("*.csv", "*.xlsx"))
+    (src / "uses_a_product.yaml").write_text(
+        "product: {id: uses_a_product, name: Uses a product, category: snacks, serving: {size: 30 g}}\n"
+        "batch: [{subformula: hl_oat_bar, amount: 50 g}, {ingredient: sea_salt, amount: 1 g}]\n",
+        encoding="utf-8",
+    )
+    lib = src / "ingredients"
+    whole = rangerun.run_range(src, lib, ["eu"], with_labels=False)
+    (tmp_path / "parts").mkdir()
+    streamed = rangerun.run_range(src, lib, ["eu"], jobs=2, with_labels=False, part_dir=tmp_path / "parts")
+    assert "uses_a_product" in whole.labelled and "uses_a_product" in streamed.labelled
+    assert (tmp_path / "parts" / "products.sqlite").exists()
+    from labelcalc.ranges import parts
+
+    assert list(parts.read_rows(streamed.parts)) == whole.rows and streamed.errors == whole.errors
