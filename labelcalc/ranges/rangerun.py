@@ -577,6 +577,7 @@ def run_range(
     elif jobs > 1:  # fewer, larger chunks: each carries its share of the table operations
         chunk_size = max(chunk_size, -(-total // (jobs * 4)))
     chunks = [items[i : i + chunk_size] for i in range(0, total, chunk_size)] or [[]]
+    del items  # each share's entries are let go once the share is labelled
     parts = [part_dir / f"part-{k:06d}.pickle" if part_dir is not None else None for k in range(len(chunks))]
     result = RangeResult()
     done = 0
@@ -585,9 +586,11 @@ def run_range(
     if jobs <= 1:
         hashes = run_hashes(library, packs) if with_labels else None
         subformulas: dict = {}
-        for ch, part in zip(chunks, parts):
+        for k, part in enumerate(parts):
+            ch, chunks[k] = chunks[k], []
             result.merge(run_chunk(ch, library, packs, index, with_labels, part, hashes, subformulas))
             done += len(ch)
+            del ch
             if progress:
                 progress(done, total)
     else:
