@@ -22,6 +22,7 @@ and the date.  Memory is read with psutil (the `bench` extra: pip install -e '.[
 
 from __future__ import annotations
 
+import argparse
 import contextlib
 import datetime
 import json
@@ -167,8 +168,22 @@ def _commit() -> str:
     return head.stdout.strip() + ("+changes" if dirty.stdout.strip() else "")
 
 
+def _arguments() -> argparse.Namespace:
+    ap = argparse.ArgumentParser(
+        description="Time and memory of range runs, as ratios within one run (see benchmarks/README.md)."
+    )
+    ap.add_argument("--quick", action="store_true", help="1,000 and 2,000 formulas, fewer PDFs: a smoke check")
+    ap.add_argument("--with-100k", action="store_true", help="add the memory run over 100,000 formulas")
+    return ap.parse_args()
+
+
 def main() -> None:
-    quick = "--quick" in sys.argv
+    args = _arguments()
+    try:
+        import psutil  # noqa: F401  # memory of the process tree
+    except ImportError:
+        raise SystemExit("benchmarks/run.py needs psutil to read memory: pip install -e '.[bench]'") from None
+    quick = args.quick
     n1, n2, npdf, repeats = (1000, 2000, 60, 3) if quick else (10000, 20000, 300, 3)
     work = Path(tempfile.gettempdir()) / "labelcalc-bench"
     results: dict = {
@@ -188,7 +203,7 @@ def main() -> None:
         results[str(n2)]["range_jobs2_s"]["median"] / results[str(n1)]["range_jobs2_s"]["median"], 3
     )
     print("scaling", results["scaling_jobs2"], flush=True)
-    if "--with-100k" in sys.argv:
+    if args.with_100k:
         src = generate(100_000, work / "range100000")
         t, mem, pss = run(range_cmd(src, work / "out-100k", 2))
         results["100000"] = {
